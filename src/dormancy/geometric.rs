@@ -30,11 +30,7 @@ impl Geometric {
             value: mean,
             allowed: "[1, inf)",
         })?;
-        Ok(Geometric {
-            p,
-            ln_q: (-p).ln_1p(),
-            inner,
-        })
+        Ok(Geometric { p, ln_q: (-p).ln_1p(), inner })
     }
 
     /// Success probability p = 1/mean.
@@ -54,11 +50,7 @@ impl LookBack for Geometric {
         self.inner.sample(rng).saturating_add(1)
     }
     fn pmf(&self, k: u64) -> f64 {
-        if k == 0 {
-            0.0
-        } else {
-            self.p * (self.ln_q * (k - 1) as f64).exp()
-        }
+        if k == 0 { 0.0 } else { self.p * (self.ln_q * (k - 1) as f64).exp() }
     }
     fn tail(&self, k: u64) -> f64 {
         (self.ln_q * k as f64).exp()
@@ -79,13 +71,7 @@ mod tests {
     #[test]
     fn rejects_bad_means() {
         for m in [0.5, 0.0, -1.0, f64::NAN, f64::INFINITY] {
-            assert!(
-                matches!(
-                    Geometric::new(m),
-                    Err(Error::OutOfRange { param: "mean", .. })
-                ),
-                "{m}"
-            );
+            assert!(matches!(Geometric::new(m), Err(Error::OutOfRange { param: "mean", .. })), "{m}");
         }
         assert!(Geometric::new(1.0).is_ok());
     }

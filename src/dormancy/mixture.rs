@@ -22,10 +22,7 @@ impl Mixture {
     /// Builds the mixture from (weight, law) pairs; weights are normalised.
     pub fn new(parts: Vec<(f64, Dormancy)>) -> Result<Self, Error> {
         let total: f64 = parts.iter().map(|(w, _)| *w).sum();
-        if parts.is_empty()
-            || parts.iter().any(|(w, _)| !w.is_finite() || *w < 0.0)
-            || !(total > 0.0)
-        {
+        if parts.is_empty() || parts.iter().any(|(w, _)| !w.is_finite() || *w < 0.0) || !(total > 0.0) {
             return Err(Error::BadWeights { law: "mixture" });
         }
         if parts.iter().any(|(_, d)| d.is_time_dependent()) {
@@ -44,10 +41,7 @@ impl Mixture {
 
     /// Greatest common divisor of the union of the parts' supports.
     pub fn support_gcd(&self) -> u64 {
-        self.parts
-            .iter()
-            .filter(|(w, _)| *w > 0.0)
-            .fold(0, |g, (_, d)| super::table::gcd(g, d.support_gcd()))
+        self.parts.iter().filter(|(w, _)| *w > 0.0).fold(0, |g, (_, d)| super::table::gcd(g, d.support_gcd()))
     }
 }
 
@@ -63,19 +57,10 @@ impl LookBack for Mixture {
         self.parts.iter().map(|(w, d)| w * d.tail(k)).sum()
     }
     fn mean(&self) -> Option<f64> {
-        self.parts.iter().try_fold(0.0, |acc, (w, d)| {
-            if *w == 0.0 {
-                Some(acc)
-            } else {
-                d.mean().map(|m| acc + w * m)
-            }
-        })
+        self.parts.iter().try_fold(0.0, |acc, (w, d)| if *w == 0.0 { Some(acc) } else { d.mean().map(|m| acc + w * m) })
     }
     fn max_lookback(&self) -> Option<u64> {
-        self.parts
-            .iter()
-            .filter(|(w, _)| *w > 0.0)
-            .try_fold(0, |acc, (_, d)| d.max_lookback().map(|m| acc.max(m)))
+        self.parts.iter().filter(|(w, _)| *w > 0.0).try_fold(0, |acc, (_, d)| d.max_lookback().map(|m| acc.max(m)))
     }
 }
 
@@ -86,18 +71,12 @@ mod tests {
 
     #[test]
     fn mean_and_tail_are_weighted() {
-        let m = Mixture::new(vec![
-            (3.0, Dormancy::None),
-            (1.0, Dormancy::Geometric(Geometric::new(9.0).unwrap())),
-        ])
-        .unwrap();
+        let m = Mixture::new(vec![(3.0, Dormancy::None), (1.0, Dormancy::Geometric(Geometric::new(9.0).unwrap()))])
+            .unwrap();
         assert!((m.mean().unwrap() - (0.75 + 0.25 * 9.0)).abs() < 1e-12);
         super::super::test_util::check_consistency(&m, 300, 1e-12);
-        let heavy = Mixture::new(vec![
-            (1.0, Dormancy::None),
-            (1.0, Dormancy::Pareto(Pareto::new(0.5, None).unwrap())),
-        ])
-        .unwrap();
+        let heavy = Mixture::new(vec![(1.0, Dormancy::None), (1.0, Dormancy::Pareto(Pareto::new(0.5, None).unwrap()))])
+            .unwrap();
         assert!(heavy.mean().is_none());
         assert_eq!(heavy.max_lookback(), None);
     }
@@ -105,14 +84,8 @@ mod tests {
     #[test]
     fn rejects_time_dependent_parts_and_bad_weights() {
         let f = Dormancy::SinceFounding(super::super::SinceFounding::new(10).unwrap());
-        assert_eq!(
-            Mixture::new(vec![(1.0, f)]).unwrap_err(),
-            Error::TimeDependentPart
-        );
+        assert_eq!(Mixture::new(vec![(1.0, f)]).unwrap_err(), Error::TimeDependentPart);
         let u = Dormancy::Uniform(Uniform::new(2).unwrap());
-        assert_eq!(
-            Mixture::new(vec![(0.0, u)]).unwrap_err(),
-            Error::BadWeights { law: "mixture" }
-        );
+        assert_eq!(Mixture::new(vec![(0.0, u)]).unwrap_err(), Error::BadWeights { law: "mixture" });
     }
 }

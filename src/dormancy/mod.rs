@@ -58,9 +58,7 @@ pub enum Error {
         allowed: &'static str,
     },
     /// A table or mixture has no positive weight.
-    #[error(
-        "the {law} law needs at least one positive weight, and every weight must be finite and >= 0"
-    )]
+    #[error("the {law} law needs at least one positive weight, and every weight must be finite and >= 0")]
     BadWeights {
         /// Name of the law.
         law: &'static str,
@@ -171,16 +169,13 @@ impl Dormancy {
                     weights.push(w * mean);
                     parts.push(law.seed_age_sampler(t)?);
                 }
-                let pick = WeightedAliasIndex::new(weights)
-                    .map_err(|_| Error::BadWeights { law: "mixture" })?;
+                let pick = WeightedAliasIndex::new(weights).map_err(|_| Error::BadWeights { law: "mixture" })?;
                 Ok(SeedAge::Mixture(pick, parts))
             }
             _ => {
                 let max = self.max_lookback().ok_or(Error::InfiniteMeanSeedBank)?;
                 let weights: Vec<f64> = (0..max).map(|a| self.tail(a)).collect();
-                let alias = WeightedAliasIndex::new(weights).map_err(|_| Error::BadWeights {
-                    law: self.law_name(),
-                })?;
+                let alias = WeightedAliasIndex::new(weights).map_err(|_| Error::BadWeights { law: self.law_name() })?;
                 Ok(SeedAge::Table(alias))
             }
         }
@@ -271,16 +266,7 @@ pub(crate) fn check(
     allowed: &'static str,
     ok: impl Fn(f64) -> bool,
 ) -> Result<f64, Error> {
-    if value.is_finite() && ok(value) {
-        Ok(value)
-    } else {
-        Err(Error::OutOfRange {
-            law,
-            param,
-            value,
-            allowed,
-        })
-    }
+    if value.is_finite() && ok(value) { Ok(value) } else { Err(Error::OutOfRange { law, param, value, allowed }) }
 }
 
 /// A uniform draw in (0, 1], never 0, so that negative powers stay finite.
@@ -304,18 +290,11 @@ pub(crate) mod test_util {
             cum += p;
             mean += law.tail(k - 1);
             let t = law.tail(k);
-            assert!(
-                (t - (1.0 - cum)).abs() < tol,
-                "k = {k}: tail {t} vs 1 - cdf {}",
-                1.0 - cum
-            );
+            assert!((t - (1.0 - cum)).abs() < tol, "k = {k}: tail {t} vs 1 - cdf {}", 1.0 - cum);
         }
         if let (Some(m), Some(max)) = (law.mean(), law.max_lookback()) {
             if max <= kmax {
-                assert!(
-                    (m - mean).abs() < tol * m,
-                    "mean {m} vs sum of tails {mean}"
-                );
+                assert!((m - mean).abs() < tol * m, "mean {m} vs sum of tails {mean}");
             }
         }
     }

@@ -30,20 +30,10 @@ impl Pareto {
     pub fn new(alpha: f64, max: Option<u64>) -> Result<Self, Error> {
         let alpha = check("pareto", "alpha", alpha, "(0, inf)", |a| a > 0.0)?;
         if max == Some(0) {
-            return Err(Error::OutOfRange {
-                law: "pareto",
-                param: "max",
-                value: 0.0,
-                allowed: "integers >= 1",
-            });
+            return Err(Error::OutOfRange { law: "pareto", param: "max", value: 0.0, allowed: "integers >= 1" });
         }
         let low = max.map_or(0.0, |m| ((m as f64) + 1.0).powf(-alpha));
-        Ok(Pareto {
-            alpha,
-            neg_inv_alpha: -1.0 / alpha,
-            max,
-            low,
-        })
+        Ok(Pareto { alpha, neg_inv_alpha: -1.0 / alpha, max, low })
     }
 
     /// The tail exponent.
@@ -66,18 +56,10 @@ impl LookBack for Pareto {
     #[inline]
     fn sample<R: Rng + ?Sized>(&self, rng: &mut R) -> u64 {
         let u = open_unit(rng);
-        let u = if self.max.is_some() {
-            self.low + (1.0 - self.low) * u
-        } else {
-            u
-        };
+        let u = if self.max.is_some() { self.low + (1.0 - self.low) * u } else { u };
         let x = u.powf(self.neg_inv_alpha);
         // Far beyond any horizon: saturate instead of overflowing.
-        let r = if x >= 9.0e18 {
-            9_000_000_000_000_000_000
-        } else {
-            x as u64
-        };
+        let r = if x >= 9.0e18 { 9_000_000_000_000_000_000 } else { x as u64 };
         match self.max {
             Some(m) => r.clamp(1, m),
             None => r.max(1),
@@ -122,17 +104,13 @@ pub(crate) fn power_sum(a: f64, m: u64) -> f64 {
     let lo = DIRECT as f64;
     let hi = m as f64;
     let f = |x: f64| x.powf(-a);
-    let integral = if (a - 1.0).abs() < 1e-12 {
-        hi.ln() - lo.ln()
-    } else {
-        (hi.powf(1.0 - a) - lo.powf(1.0 - a)) / (1.0 - a)
-    };
+    let integral =
+        if (a - 1.0).abs() < 1e-12 { hi.ln() - lo.ln() } else { (hi.powf(1.0 - a) - lo.powf(1.0 - a)) / (1.0 - a) };
     // Derivatives of x^-a: f' = -a x^(-a-1), f''' = -a(a+1)(a+2) x^(-a-3), f^(5) = -a..(a+4) x^(-a-5).
     let d1 = |x: f64| -a * x.powf(-a - 1.0);
     let d3 = |x: f64| -a * (a + 1.0) * (a + 2.0) * x.powf(-a - 3.0);
     let d5 = |x: f64| -a * (a + 1.0) * (a + 2.0) * (a + 3.0) * (a + 4.0) * x.powf(-a - 5.0);
-    let em = (f(hi) - f(lo)) / 2.0 + (d1(hi) - d1(lo)) / 12.0 - (d3(hi) - d3(lo)) / 720.0
-        + (d5(hi) - d5(lo)) / 30240.0;
+    let em = (f(hi) - f(lo)) / 2.0 + (d1(hi) - d1(lo)) / 12.0 - (d3(hi) - d3(lo)) / 720.0 + (d5(hi) - d5(lo)) / 30240.0;
     direct + integral + em
 }
 
@@ -155,18 +133,9 @@ mod tests {
     #[test]
     fn rejects_bad_parameters() {
         for a in [0.0, -0.5, f64::NAN, f64::INFINITY] {
-            assert!(
-                matches!(
-                    Pareto::new(a, None),
-                    Err(Error::OutOfRange { param: "alpha", .. })
-                ),
-                "{a}"
-            );
+            assert!(matches!(Pareto::new(a, None), Err(Error::OutOfRange { param: "alpha", .. })), "{a}");
         }
-        assert!(matches!(
-            Pareto::new(0.5, Some(0)),
-            Err(Error::OutOfRange { param: "max", .. })
-        ));
+        assert!(matches!(Pareto::new(0.5, Some(0)), Err(Error::OutOfRange { param: "max", .. })));
     }
 
     #[test]
@@ -177,11 +146,7 @@ mod tests {
         assert!((p.pmf(1) - (1.0 - 2f64.powf(-0.3))).abs() < 1e-15);
         assert!((p.tail(9) - 10f64.powf(-0.3)).abs() < 1e-15);
         super::super::test_util::check_consistency(&p, 500, 1e-12);
-        super::super::test_util::check_consistency(
-            &Pareto::new(1.5, Some(300)).unwrap(),
-            300,
-            1e-12,
-        );
+        super::super::test_util::check_consistency(&Pareto::new(1.5, Some(300)).unwrap(), 300, 1e-12);
     }
 
     #[test]
@@ -189,9 +154,7 @@ mod tests {
         // Source: zeta(2) = pi^2/6 (Euler); zeta(1.5) = 2.612375348685... (theory reference table, law B mean).
         assert!((zeta(2.0) - std::f64::consts::PI.powi(2) / 6.0).abs() < 1e-12);
         assert!((zeta(1.5) - 2.612375348685488).abs() < 1e-10);
-        assert!(
-            (Pareto::new(1.5, None).unwrap().mean().unwrap() - 2.612375348685488).abs() < 1e-10
-        );
+        assert!((Pareto::new(1.5, None).unwrap().mean().unwrap() - 2.612375348685488).abs() < 1e-10);
         assert!(Pareto::new(0.8, None).unwrap().mean().is_none());
     }
 
@@ -199,10 +162,7 @@ mod tests {
     fn power_sum_matches_direct() {
         for a in [0.2, 0.5, 1.0, 1.7] {
             let direct: f64 = (1..=5000u64).map(|k| (k as f64).powf(-a)).sum();
-            assert!(
-                (power_sum(a, 5000) - direct).abs() < 1e-9 * direct,
-                "a = {a}"
-            );
+            assert!((power_sum(a, 5000) - direct).abs() < 1e-9 * direct, "a = {a}");
         }
     }
 
@@ -222,10 +182,7 @@ mod tests {
         for k in 1..=3u64 {
             let expect = p.pmf(k) * n as f64;
             let sd = expect.sqrt();
-            assert!(
-                (counts[k as usize] as f64 - expect).abs() < 5.0 * sd,
-                "k={k}"
-            );
+            assert!((counts[k as usize] as f64 - expect).abs() < 5.0 * sd, "k={k}");
         }
     }
 }

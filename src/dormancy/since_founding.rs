@@ -33,21 +33,13 @@ impl SinceFounding {
 
     /// The law of R for an individual living at time t, or `None` for a founder.
     pub fn at(&self, t: u64) -> Option<Uniform> {
-        if t >= self.founded {
-            None
-        } else {
-            Uniform::new(self.founded - t).ok()
-        }
+        if t >= self.founded { None } else { Uniform::new(self.founded - t).ok() }
     }
 
     /// Draws R for an individual living at time t, or `None` for a founder.
     #[inline]
     pub fn sample_at<R: Rng + ?Sized>(&self, t: u64, rng: &mut R) -> Option<u64> {
-        if t >= self.founded {
-            None
-        } else {
-            Some(rng.random_range(1..=self.founded - t))
-        }
+        if t >= self.founded { None } else { Some(rng.random_range(1..=self.founded - t)) }
     }
 }
 

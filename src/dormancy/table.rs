@@ -37,19 +37,9 @@ impl Table {
         for k in (0..pmf.len()).rev() {
             tail[k] = tail[k + 1] + pmf[k];
         }
-        let mean = pmf
-            .iter()
-            .enumerate()
-            .map(|(i, p)| (i + 1) as f64 * p)
-            .sum();
-        let alias =
-            WeightedAliasIndex::new(pmf.clone()).map_err(|_| Error::BadWeights { law: "table" })?;
-        Ok(Table {
-            pmf,
-            tail,
-            mean,
-            alias,
-        })
+        let mean = pmf.iter().enumerate().map(|(i, p)| (i + 1) as f64 * p).sum();
+        let alias = WeightedAliasIndex::new(pmf.clone()).map_err(|_| Error::BadWeights { law: "table" })?;
+        Ok(Table { pmf, tail, mean, alias })
     }
 
     /// The normalised probabilities P(R = 1), P(R = 2), ...
@@ -59,11 +49,7 @@ impl Table {
 
     /// Greatest common divisor of the support.
     pub fn support_gcd(&self) -> u64 {
-        self.pmf
-            .iter()
-            .enumerate()
-            .filter(|(_, p)| **p > 0.0)
-            .fold(0, |g, (i, _)| gcd(g, i as u64 + 1))
+        self.pmf.iter().enumerate().filter(|(_, p)| **p > 0.0).fold(0, |g, (i, _)| gcd(g, i as u64 + 1))
     }
 }
 
@@ -77,11 +63,7 @@ impl LookBack for Table {
         self.alias.sample(rng) as u64 + 1
     }
     fn pmf(&self, k: u64) -> f64 {
-        if k == 0 {
-            0.0
-        } else {
-            self.pmf.get(k as usize - 1).copied().unwrap_or(0.0)
-        }
+        if k == 0 { 0.0 } else { self.pmf.get(k as usize - 1).copied().unwrap_or(0.0) }
     }
     fn tail(&self, k: u64) -> f64 {
         self.tail.get(k as usize).copied().unwrap_or(0.0)
@@ -100,18 +82,8 @@ mod tests {
 
     #[test]
     fn rejects_bad_weights() {
-        for w in [
-            vec![],
-            vec![0.0, 0.0],
-            vec![1.0, -1.0],
-            vec![f64::NAN],
-            vec![f64::INFINITY],
-        ] {
-            assert_eq!(
-                Table::new(&w).unwrap_err(),
-                Error::BadWeights { law: "table" },
-                "{w:?}"
-            );
+        for w in [vec![], vec![0.0, 0.0], vec![1.0, -1.0], vec![f64::NAN], vec![f64::INFINITY]] {
+            assert_eq!(Table::new(&w).unwrap_err(), Error::BadWeights { law: "table" }, "{w:?}");
         }
     }
 

@@ -18,12 +18,7 @@ impl Uniform {
     /// Builds the law; `max` must be at least 1.
     pub fn new(max: u64) -> Result<Self, Error> {
         if max == 0 {
-            return Err(Error::OutOfRange {
-                law: "uniform",
-                param: "max",
-                value: 0.0,
-                allowed: "integers >= 1",
-            });
+            return Err(Error::OutOfRange { law: "uniform", param: "max", value: 0.0, allowed: "integers >= 1" });
         }
         Ok(Uniform { max })
     }
@@ -40,18 +35,10 @@ impl LookBack for Uniform {
         rng.random_range(1..=self.max)
     }
     fn pmf(&self, k: u64) -> f64 {
-        if (1..=self.max).contains(&k) {
-            1.0 / self.max as f64
-        } else {
-            0.0
-        }
+        if (1..=self.max).contains(&k) { 1.0 / self.max as f64 } else { 0.0 }
     }
     fn tail(&self, k: u64) -> f64 {
-        if k >= self.max {
-            0.0
-        } else {
-            (self.max - k) as f64 / self.max as f64
-        }
+        if k >= self.max { 0.0 } else { (self.max - k) as f64 / self.max as f64 }
     }
     fn mean(&self) -> Option<f64> {
         Some((self.max as f64 + 1.0) / 2.0)
@@ -67,10 +54,7 @@ mod tests {
 
     #[test]
     fn rejects_zero() {
-        assert!(matches!(
-            Uniform::new(0),
-            Err(Error::OutOfRange { param: "max", .. })
-        ));
+        assert!(matches!(Uniform::new(0), Err(Error::OutOfRange { param: "max", .. })));
     }
 
     #[test]
