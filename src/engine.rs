@@ -1,0 +1,257 @@
+//! The exact backward-in-time engine.
+//!
+//! Every lineage is an individual of some deme at some generation. It draws its parent:
+//! a look-back R from its deme's dormancy law, the parent's deme from the backward
+//! migration matrix, and a uniform individual among the N_e(t + R) of that generation.
+//! Individuals are never labelled. Lineages wait in a priority queue keyed by (time, deme);
+//! when every lineage that landed on one (deme, generation) has arrived (all arrivals come
+//! from younger generations, since R >= 1), they are seated one after the other: a lineage
+//! is the same individual as each of the m already occupied ones with probability 1/N each,
+//! or a new one with probability 1 - m/N. This is exactly i.i.d. uniform parent choice, so
+//! several lineages can merge at once (multiple mergers), and sampled individuals of that
+//! generation are occupied seats from the start (sampled ancestors).
+//!
+//! Lineages that would jump beyond the horizon, or reach a founder, stop: the result is then
+//! a forest, never an endless loop. When one lineage is left it is the root.
+
+use crate::dormancy::Dormancy;
+use crate::genealogy::{Genealogy, Node};
+use crate::scenario::{SampleKind, Scenario};
+use rand::{Rng, RngExt};
+use std::cmp::Reverse;
+use std::collections::BinaryHeap;
+
+/// A lineage waiting at (time, deme), or a sampled individual not yet reached.
+#[derive(Debug, Clone, Copy, PartialEq, Eq, PartialOrd, Ord)]
+struct Entry {
+    /// time * n_demes + deme: one integer orders by time, then deme.
+    key: u64,
+    /// Genealogy node at the bottom of the lineage's current edge.
+    node: u32,
+    /// Jumps since `node`, the one that landed here included.
+    jumps: u64,
+    /// A sampled individual (an occupied seat of its generation).
+    sample: bool,
+}
+
+/// Simulates genealogies; owns scratch buffers reused across replicates.
+#[derive(Debug, Default)]
+pub struct Simulator {
+    heap: BinaryHeap<Reverse<Entry>>,
+    group: Vec<Entry>,
+    seat: Vec<u32>,
+    order: Vec<u32>,
+}
+
+impl Simulator {
+    /// A simulator with empty buffers.
+    pub fn new() -> Self {
+        Simulator::default()
+    }
+
+    /// Simulates the genealogy of the scenario's sample, drawing only from `rng`.
+    pub fn simulate<R: Rng + ?Sized>(&mut self, scenario: &Scenario, rng: &mut R) -> Genealogy {
+        let model = Model::new(scenario);
+        let samples = scenario.samples();
+        let mut g = Genealogy::with_samples(samples.len());
+        self.heap.clear();
+        let mut steps = 0u64;
+        for (i, s) in samples.iter().enumerate() {
+            let node = g.add_node(Node { time: s.time, deme: s.deme, sample: Some(i as u32) });
+            match s.kind {
+                SampleKind::Population => {
+                    self.heap.push(Reverse(Entry { key: model.key(s.time, s.deme), node, jumps: 0, sample: true }))
+                }
+                SampleKind::Seedbank => {
+                    // The seed was made a + 1 generations before sampling by a parent of the
+                    // deme drawn by migration, as for any child of this deme.
+                    let age = scenario.seed_age(s.deme, s.time).map_or(0, |a| a.sample(rng));
+                    let to = model.parent_deme(s.deme, s.time, rng);
+                    let t = s.time.saturating_add(age + 1);
+                    steps += 1;
+                    if t > model.horizon {
+                        g.add_root(node);
+                    } else {
+                        self.heap.push(Reverse(Entry { key: model.key(t, to), node, jumps: 1, sample: false }));
+                    }
+                }
+            }
+        }
+        while let Some(&Reverse(top)) = self.heap.peek() {
+            if self.heap.len() == 1 {
+                self.heap.pop();
+                g.add_root(top.node);
+                break;
+            }
+            self.heap.pop();
+            let (time, deme) = model.split(top.key);
+            // Hot path: a lone arrival on its generation takes a new individual, no draw needed.
+            if !top.sample && self.heap.peek().is_none_or(|Reverse(e)| e.key != top.key) {
+                steps += self.step(&model, &mut g, top.node, top.jumps, time, deme, rng);
+                continue;
+            }
+            self.group.clear();
+            self.group.push(top);
+            while let Some(&Reverse(e)) = self.heap.peek() {
+                if e.key != top.key {
+                    break;
+                }
+                self.group.push(e);
+                self.heap.pop();
+            }
+            steps += self.seat_group(&model, &mut g, time, deme, rng);
+        }
+        g.sort_roots();
+        g.set_steps(steps);
+        g
+    }
+
+    /// Seats every lineage of one (deme, generation) and continues the resulting individuals.
+    fn seat_group<R: Rng + ?Sized>(
+        &mut self,
+        model: &Model,
+        g: &mut Genealogy,
+        time: u64,
+        deme: usize,
+        rng: &mut R,
+    ) -> u64 {
+        let n = model.size(deme, time);
+        // Sampled individuals take the first seats.
+        self.group.sort_unstable_by_key(|e| (!e.sample, e.node));
+        let mut occupied = self.group.iter().filter(|e| e.sample).count() as u64;
+        self.seat.clear();
+        for e in &self.group {
+            let s = if e.sample {
+                self.seat.len() as u64
+            } else if occupied == 0 {
+                occupied = 1;
+                0
+            } else if n == 1 {
+                0
+            } else {
+                let u = rng.random_range(0..n);
+                if u < occupied {
+                    u
+                } else {
+                    occupied += 1;
+                    occupied - 1
+                }
+            };
+            self.seat.push(s as u32);
+        }
+        self.order.clear();
+        self.order.extend(0..self.group.len() as u32);
+        let seat = &self.seat;
+        self.order.sort_unstable_by_key(|&i| (seat[i as usize], i));
+        let mut steps = 0;
+        let mut i = 0;
+        while i < self.order.len() {
+            let first = self.order[i] as usize;
+            let s = self.seat[first];
+            let mut j = i + 1;
+            while j < self.order.len() && self.seat[self.order[j] as usize] == s {
+                j += 1;
+            }
+            let head = self.group[first];
+            let (node, jumps) = if head.sample {
+                for k in i + 1..j {
+                    let child = self.group[self.order[k] as usize];
+                    g.add_edge(head.node, child.node, child.jumps);
+                }
+                (head.node, 0)
+            } else if j - i == 1 {
+                (head.node, head.jumps)
+            } else {
+                let parent = g.add_node(Node { time, deme, sample: None });
+                for k in i..j {
+                    let child = self.group[self.order[k] as usize];
+                    g.add_edge(parent, child.node, child.jumps);
+                }
+                (parent, 0)
+            };
+            steps += self.step(model, g, node, jumps, time, deme, rng);
+            i = j;
+        }
+        steps
+    }
+
+    /// Draws the parent of the individual at (deme, time) and queues its lineage; returns the
+    /// number of steps taken (0 when the lineage stops at a founder or beyond the horizon).
+    #[inline]
+    #[allow(clippy::too_many_arguments)]
+    fn step<R: Rng + ?Sized>(
+        &mut self,
+        model: &Model,
+        g: &mut Genealogy,
+        node: u32,
+        jumps: u64,
+        time: u64,
+        deme: usize,
+        rng: &mut R,
+    ) -> u64 {
+        let Some(r) = model.dormancy[deme].sample_at(time, rng) else {
+            g.add_root(node);
+            return 0;
+        };
+        let to = model.parent_deme(deme, time, rng);
+        let t = time.saturating_add(r);
+        if t > model.horizon {
+            g.add_root(node);
+            return 1;
+        }
+        self.heap.push(Reverse(Entry { key: model.key(t, to), node, jumps: jumps + 1, sample: false }));
+        1
+    }
+}
+
+/// The parts of a scenario the hot loop reads, with fast paths chosen once.
+struct Model<'a> {
+    scenario: &'a Scenario,
+    dormancy: Vec<&'a Dormancy>,
+    constant_size: Vec<Option<u64>>,
+    n_demes: u64,
+    horizon: u64,
+    migrates: bool,
+}
+
+impl<'a> Model<'a> {
+    fn new(scenario: &'a Scenario) -> Self {
+        let demes = scenario.demes();
+        Model {
+            scenario,
+            dormancy: demes.iter().map(|d| d.dormancy()).collect(),
+            constant_size: demes.iter().map(|d| d.size().as_constant()).collect(),
+            n_demes: demes.len() as u64,
+            horizon: scenario.horizon(),
+            migrates: scenario.migration().is_active(),
+        }
+    }
+
+    #[inline(always)]
+    fn key(&self, time: u64, deme: usize) -> u64 {
+        time * self.n_demes + deme as u64
+    }
+
+    #[inline(always)]
+    fn split(&self, key: u64) -> (u64, usize) {
+        (key / self.n_demes, (key % self.n_demes) as usize)
+    }
+
+    #[inline(always)]
+    fn parent_deme<R: Rng + ?Sized>(&self, deme: usize, time: u64, rng: &mut R) -> usize {
+        if self.migrates { self.scenario.migration().parent_deme(deme, time, rng) } else { deme }
+    }
+
+    #[inline(always)]
+    fn size(&self, deme: usize, time: u64) -> u64 {
+        self.constant_size[deme].unwrap_or_else(|| self.scenario.demes()[deme].size().at(time))
+    }
+}
+
+/// Simulates one genealogy with a fresh simulator (convenience for tests and examples).
+pub fn simulate<R: Rng + ?Sized>(scenario: &Scenario, rng: &mut R) -> Genealogy {
+    Simulator::new().simulate(scenario, rng)
+}
+
+#[cfg(test)]
+mod tests;

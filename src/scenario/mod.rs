@@ -1,0 +1,777 @@
+//! Scenario files: parse once into validated types.
+//!
+//! A YAML file is read into the serde mirror [`RawScenario`] (unknown keys are refused),
+//! then [`Scenario::from_raw`] checks every rule and builds the model objects: demes with
+//! their [`SizeHistory`] and [`Dormancy`], the [`Migration`] process and the expanded list of
+//! sampled individuals. All problems are reported in one go, each with the file, the key
+//! path and the line. After that nothing in the crate sees raw input. The format is
+//! documented in `docs/scenario-format.md`.
+
+pub mod raw;
+
+pub use raw::RawScenario;
+
+use crate::demography::{Migration, SizeEpoch, SizeHistory};
+use crate::dormancy::{self, Dormancy, SeedAge};
+use raw::{RawDeme, RawDormancy, RawMigration, RawSample, RawSize};
+use serde_saphyr::Spanned;
+use std::fmt;
+
+/// Default master seed.
+pub const DEFAULT_SEED: u64 = 1;
+/// Default number of replicates.
+pub const DEFAULT_REPLICATES: u64 = 100;
+/// Default horizon in generations.
+pub const DEFAULT_HORIZON: u64 = 1_000_000_000;
+/// Largest horizon accepted: times are packed with the deme index into one u64 key.
+pub const MAX_HORIZON: u64 = 1_000_000_000_000_000;
+/// Largest number of demes.
+pub const MAX_DEMES: usize = 1000;
+/// Largest total sample size.
+pub const MAX_SAMPLES: usize = 1 << 24;
+
+/// The scenario embedded in the binary, used when no file is given.
+pub const DEMO_YAML: &str = include_str!("../../scenarios/demo.yaml");
+
+/// One problem found in a scenario file.
+#[derive(Debug, Clone, PartialEq, Eq)]
+pub struct Issue {
+    /// Key path, e.g. `demes[1].dormancy.alpha`.
+    pub path: String,
+    /// Line in the file, when known.
+    pub line: Option<u64>,
+    /// What is wrong and what is allowed.
+    pub message: String,
+}
+
+/// Why a scenario could not be read.
+#[derive(Debug, thiserror::Error)]
+#[non_exhaustive]
+pub enum Error {
+    /// The YAML could not be parsed into the scenario's shape.
+    #[error("{origin}: {message}")]
+    Syntax {
+        /// File name or `<embedded demo>`.
+        origin: String,
+        /// The parser's message, with line and column.
+        message: String,
+    },
+    /// The file parsed but broke the rules.
+    #[error("{}", render_issues(origin, issues))]
+    Invalid {
+        /// File name.
+        origin: String,
+        /// Every problem found.
+        issues: Vec<Issue>,
+    },
+}
+
+/// Alias used by callers holding several modules' errors.
+pub use Error as ScenarioError;
+
+fn render_issues(origin: &str, issues: &[Issue]) -> String {
+    let mut s = format!("{origin}: {} problem(s) in the scenario", issues.len());
+    for i in issues {
+        match i.line {
+            Some(l) => s.push_str(&format!("\n  {origin}:{l}: {}: {}", i.path, i.message)),
+            None => s.push_str(&format!("\n  {origin}: {}: {}", i.path, i.message)),
+        }
+    }
+    s
+}
+
+/// Whether a sampled individual is a growing plant (an individual of its generation) or a
+/// dormant seed taken from the bank.
+#[derive(Debug, Clone, Copy, PartialEq, Eq, serde::Serialize)]
+#[serde(rename_all = "snake_case")]
+pub enum SampleKind {
+    /// An individual of the generation at the sampling time.
+    Population,
+    /// A dormant seed present in the bank at the sampling time.
+    Seedbank,
+}
+
+/// One sampled individual.
+#[derive(Debug, Clone, PartialEq, Eq)]
+pub struct SampledIndividual {
+    /// Deme index.
+    pub deme: usize,
+    /// Sampling time (generations ago).
+    pub time: u64,
+    /// Plant or seed.
+    pub kind: SampleKind,
+    /// Label `deme_index`, index counted within the deme over all groups.
+    pub label: String,
+}
+
+/// A validated deme.
+#[derive(Debug, Clone)]
+pub struct Deme {
+    name: String,
+    size: SizeHistory,
+    dormancy: Dormancy,
+}
+
+impl Deme {
+    /// Identifier.
+    pub fn name(&self) -> &str {
+        &self.name
+    }
+    /// Size history.
+    pub fn size(&self) -> &SizeHistory {
+        &self.size
+    }
+    /// Dormancy law.
+    pub fn dormancy(&self) -> &Dormancy {
+        &self.dormancy
+    }
+}
+
+/// A validated scenario. Build with [`Scenario::from_yaml_str`] or [`Scenario::from_raw`].
+#[derive(Debug, Clone)]
+pub struct Scenario {
+    name: String,
+    seed: u64,
+    replicates: u64,
+    horizon: u64,
+    demes: Vec<Deme>,
+    migration: Migration,
+    samples: Vec<SampledIndividual>,
+    /// Seed-age samplers, one per seed-bank sample group: (deme, time) -> sampler.
+    seed_ages: Vec<((usize, u64), SeedAge)>,
+    normalized: RawScenario,
+}
+
+impl Scenario {
+    /// Parses and validates YAML text; `origin` names the file in messages.
+    pub fn from_yaml_str(text: &str, origin: &str) -> Result<Self, Error> {
+        let raw: RawScenario = parse_raw(text, origin)?;
+        Scenario::from_raw(raw, origin)
+    }
+
+    /// The embedded demo scenario.
+    pub fn demo() -> Self {
+        Scenario::from_yaml_str(DEMO_YAML, "<embedded demo>").expect("the embedded demo scenario is valid")
+    }
+
+    /// Validates a raw scenario (after any command-line overrides were merged into it).
+    pub fn from_raw(raw: RawScenario, origin: &str) -> Result<Self, Error> {
+        let mut v = Validator { issues: Vec::new() };
+        let s = v.scenario(&raw);
+        match s {
+            Some(s) if v.issues.is_empty() => Ok(s),
+            _ => Err(Error::Invalid { origin: origin.to_string(), issues: v.issues }),
+        }
+    }
+
+    /// Free-text name.
+    pub fn name(&self) -> &str {
+        &self.name
+    }
+    /// Master seed.
+    pub fn seed(&self) -> u64 {
+        self.seed
+    }
+    /// Number of replicates.
+    pub fn replicates(&self) -> u64 {
+        self.replicates
+    }
+    /// Generations back before giving up.
+    pub fn horizon(&self) -> u64 {
+        self.horizon
+    }
+    /// The demes.
+    pub fn demes(&self) -> &[Deme] {
+        &self.demes
+    }
+    /// The backward migration process.
+    pub fn migration(&self) -> &Migration {
+        &self.migration
+    }
+    /// Every sampled individual, in file order.
+    pub fn samples(&self) -> &[SampledIndividual] {
+        &self.samples
+    }
+    /// The seed-age sampler of the seed-bank samples of deme `deme` at `time`.
+    pub fn seed_age(&self, deme: usize, time: u64) -> Option<&SeedAge> {
+        let key = if self.demes[deme].dormancy.is_time_dependent() { time } else { 0 };
+        self.seed_ages.iter().find(|(k, _)| *k == (deme, key)).map(|(_, s)| s)
+    }
+    /// The scenario as parsed, with defaults filled in (for reports).
+    pub fn normalized(&self) -> &RawScenario {
+        &self.normalized
+    }
+    /// Index of a deme by name.
+    pub fn deme_index(&self, name: &str) -> Option<usize> {
+        self.demes.iter().position(|d| d.name == name)
+    }
+}
+
+/// Parses YAML into the raw mirror, mapping parser errors to [`Error::Syntax`].
+pub fn parse_raw(text: &str, origin: &str) -> Result<RawScenario, Error> {
+    serde_saphyr::from_str(text).map_err(|e| Error::Syntax { origin: origin.to_string(), message: e.to_string() })
+}
+
+struct Validator {
+    issues: Vec<Issue>,
+}
+
+fn line_of<T>(s: &Spanned<T>) -> Option<u64> {
+    let l = s.referenced.line();
+    (l > 0).then_some(l)
+}
+
+impl Validator {
+    fn err(&mut self, path: impl Into<String>, line: Option<u64>, message: impl Into<String>) {
+        self.issues.push(Issue { path: path.into(), line, message: message.into() });
+    }
+
+    fn whole(&mut self, path: &str, line: Option<u64>, x: f64, min: f64, max: f64) -> Option<u64> {
+        if x.is_finite() && x.fract() == 0.0 && x >= min && x <= max {
+            Some(x as u64)
+        } else {
+            self.err(
+                path,
+                line,
+                format!("{x} is not allowed: a whole number of generations in [{min}, {max:e}] is needed"),
+            );
+            None
+        }
+    }
+
+    fn scenario(&mut self, raw: &RawScenario) -> Option<Scenario> {
+        let seed = raw.seed.unwrap_or(DEFAULT_SEED);
+        let replicates = raw.replicates.unwrap_or(DEFAULT_REPLICATES);
+        if replicates == 0 {
+            self.err("replicates", None, "must be at least 1");
+        }
+        let horizon = match &raw.horizon {
+            Some(h) => self.whole("horizon", line_of(h), h.value, 1.0, MAX_HORIZON as f64).unwrap_or(DEFAULT_HORIZON),
+            None => DEFAULT_HORIZON,
+        };
+        if raw.demes.is_empty() {
+            self.err("demes", None, "at least one deme is needed");
+        }
+        if raw.demes.len() > MAX_DEMES {
+            self.err("demes", None, format!("at most {MAX_DEMES} demes are allowed"));
+        }
+        let mut demes = Vec::new();
+        for (i, d) in raw.demes.iter().enumerate() {
+            let path = format!("demes[{i}]");
+            if let Some(deme) = self.deme(&path, d) {
+                if demes.iter().any(|x: &Deme| x.name == deme.name) {
+                    self.err(format!("{path}.name"), line_of(d), format!("deme name `{}` is used twice", deme.name));
+                }
+                demes.push(deme);
+            }
+        }
+        let names: Vec<&str> = raw.demes.iter().map(|d| d.value.name.as_str()).collect();
+        let migration = self.migration(&raw.migration, &names);
+        let (samples, seed_ages) = self.samples(&raw.samples, &names, &demes, horizon);
+        if !self.issues.is_empty() {
+            return None;
+        }
+        let mut normalized = raw.clone();
+        normalized.seed = Some(seed);
+        normalized.replicates = Some(replicates);
+        normalized.horizon =
+            Some(Spanned::new(horizon as f64, serde_saphyr::Location::UNKNOWN, serde_saphyr::Location::UNKNOWN));
+        Some(Scenario {
+            name: raw.name.clone().unwrap_or_else(|| "unnamed scenario".to_string()),
+            seed,
+            replicates,
+            horizon,
+            demes,
+            migration: migration?,
+            samples,
+            seed_ages,
+            normalized,
+        })
+    }
+
+    fn deme(&mut self, path: &str, d: &Spanned<RawDeme>) -> Option<Deme> {
+        let line = line_of(d);
+        let raw = &d.value;
+        let name_ok =
+            !raw.name.is_empty() && raw.name.chars().all(|c| c.is_ascii_alphanumeric() || c == '_' || c == '-');
+        if !name_ok {
+            self.err(
+                format!("{path}.name"),
+                line,
+                format!("`{}` is not a valid deme name: use letters, digits, `_` or `-`", raw.name),
+            );
+        }
+        let size = self.size(&format!("{path}.size"), line, &raw.size);
+        let dormancy = match &raw.dormancy {
+            Some(dm) => self.dormancy(&format!("{path}.dormancy"), dm, true),
+            None => Some(Dormancy::None),
+        };
+        Some(Deme { name: raw.name.clone(), size: size?, dormancy: dormancy? })
+    }
+
+    fn size(&mut self, path: &str, line: Option<u64>, s: &RawSize) -> Option<SizeHistory> {
+        let check_size = |v: &mut Self, p: &str, x: f64| -> Option<f64> {
+            if x.is_finite() && x >= 1.0 {
+                Some(x)
+            } else {
+                v.err(p, line, format!("{x} is not allowed: a size is a number of individuals >= 1"));
+                None
+            }
+        };
+        match s {
+            RawSize::Constant(x) => {
+                let x = check_size(self, path, *x)?;
+                Some(SizeHistory::from_epochs(vec![SizeEpoch { start: 0, size: x, growth: 0.0 }]))
+            }
+            RawSize::Epochs(list) => {
+                if list.is_empty() {
+                    self.err(path, line, "the list of size epochs is empty");
+                    return None;
+                }
+                let mut epochs = Vec::new();
+                let mut ok = true;
+                for (i, e) in list.iter().enumerate() {
+                    let p = format!("{path}[{i}]");
+                    let start =
+                        self.whole(&format!("{p}.generations_ago"), line, e.generations_ago, 0.0, MAX_HORIZON as f64);
+                    let size = check_size(self, &format!("{p}.size"), e.size);
+                    let growth = e.growth.unwrap_or(0.0);
+                    if !growth.is_finite() {
+                        self.err(format!("{p}.growth"), line, "growth must be a finite number");
+                        ok = false;
+                    }
+                    match (start, size) {
+                        (Some(start), Some(size)) => epochs.push(SizeEpoch { start, size, growth }),
+                        _ => ok = false,
+                    }
+                }
+                if !ok {
+                    return None;
+                }
+                if epochs[0].start != 0 {
+                    self.err(
+                        format!("{path}[0].generations_ago"),
+                        line,
+                        "the first epoch must start at 0 (the present)",
+                    );
+                    return None;
+                }
+                if epochs.windows(2).any(|w| w[0].start >= w[1].start) {
+                    self.err(path, line, "epochs must be listed with strictly increasing generations_ago");
+                    return None;
+                }
+                Some(SizeHistory::from_epochs(epochs))
+            }
+        }
+    }
+
+    fn dormancy(&mut self, path: &str, d: &Spanned<RawDormancy>, top: bool) -> Option<Dormancy> {
+        let line = line_of(d);
+        let r = &d.value;
+        let allowed: &[&str] = match r.law.as_str() {
+            "none" => &[],
+            "uniform" => &["max"],
+            "geometric" => &["mean"],
+            "pareto" => &["alpha", "max"],
+            "table" => &["weights"],
+            "mixture" => &["parts"],
+            "since_founding" => &["founded"],
+            other => {
+                self.err(
+                    format!("{path}.law"),
+                    line,
+                    format!(
+                        "unknown law `{other}`: allowed are none, uniform, geometric, pareto, table, mixture, since_founding"
+                    ),
+                );
+                return None;
+            }
+        };
+        let present = [
+            ("mean", r.mean.is_some()),
+            ("alpha", r.alpha.is_some()),
+            ("max", r.max.is_some()),
+            ("weights", r.weights.is_some()),
+            ("parts", r.parts.is_some()),
+            ("founded", r.founded.is_some()),
+        ];
+        let mut ok = true;
+        for (key, is) in present {
+            if is && !allowed.contains(&key) {
+                self.err(
+                    format!("{path}.{key}"),
+                    line,
+                    format!("key `{key}` does not belong to law `{}` (its keys: {})", r.law, keys_text(allowed)),
+                );
+                ok = false;
+            }
+        }
+        if top && r.weight.is_some() {
+            self.err(format!("{path}.weight"), line, "`weight` is only allowed inside the parts of a mixture");
+            ok = false;
+        }
+        let need = |v: &mut Self, key: &str, x: Option<f64>| -> Option<f64> {
+            if x.is_none() {
+                v.err(format!("{path}.{key}"), line, format!("law `{}` needs the key `{key}`", r.law));
+            }
+            x
+        };
+        let built: Result<Dormancy, dormancy::Error> = match r.law.as_str() {
+            "none" => Ok(Dormancy::None),
+            "uniform" => {
+                let max = need(self, "max", r.max)?;
+                let max = self.whole(&format!("{path}.max"), line, max, 1.0, MAX_HORIZON as f64)?;
+                dormancy::Uniform::new(max).map(Dormancy::Uniform)
+            }
+            "geometric" => dormancy::Geometric::new(need(self, "mean", r.mean)?).map(Dormancy::Geometric),
+            "pareto" => {
+                let max = match r.max {
+                    Some(m) => Some(self.whole(&format!("{path}.max"), line, m, 1.0, MAX_HORIZON as f64)?),
+                    None => None,
+                };
+                dormancy::Pareto::new(need(self, "alpha", r.alpha)?, max).map(Dormancy::Pareto)
+            }
+            "table" => match &r.weights {
+                Some(w) => dormancy::Table::new(w).map(Dormancy::Table),
+                None => {
+                    need(self, "weights", None);
+                    return None;
+                }
+            },
+            "since_founding" => {
+                let f = need(self, "founded", r.founded)?;
+                let f = self.whole(&format!("{path}.founded"), line, f, 1.0, MAX_HORIZON as f64)?;
+                dormancy::SinceFounding::new(f).map(Dormancy::SinceFounding)
+            }
+            "mixture" => {
+                let Some(parts) = &r.parts else {
+                    need(self, "parts", None);
+                    return None;
+                };
+                let mut built = Vec::new();
+                for (i, p) in parts.iter().enumerate() {
+                    let pp = format!("{path}.parts[{i}]");
+                    let w = match p.value.weight {
+                        Some(w) if w.is_finite() && w >= 0.0 => Some(w),
+                        Some(w) => {
+                            self.err(
+                                format!("{pp}.weight"),
+                                line_of(p),
+                                format!("{w} is not allowed: weights are >= 0"),
+                            );
+                            None
+                        }
+                        None => {
+                            self.err(format!("{pp}.weight"), line_of(p), "each part of a mixture needs a `weight`");
+                            None
+                        }
+                    };
+                    let law = self.dormancy(&pp, p, false);
+                    if let (Some(w), Some(law)) = (w, law) {
+                        built.push((w, law));
+                    }
+                }
+                if built.len() != parts.len() {
+                    return None;
+                }
+                dormancy::Mixture::new(built).map(Dormancy::Mixture)
+            }
+            _ => unreachable!("law names were checked above"),
+        };
+        match built {
+            Ok(d) if ok => Some(d),
+            Ok(_) => None,
+            Err(e) => {
+                self.err(path, line, e.to_string());
+                None
+            }
+        }
+    }
+
+    fn migration(&mut self, list: &[Spanned<RawMigration>], names: &[&str]) -> Option<Migration> {
+        let n = names.len();
+        struct Entry {
+            from: usize,
+            to: usize,
+            rate: f64,
+            start: u64,
+            end: u64,
+            idx: usize,
+        }
+        let mut entries = Vec::new();
+        for (i, m) in list.iter().enumerate() {
+            let path = format!("migration[{i}]");
+            let line = line_of(m);
+            let r = &m.value;
+            let from = self.deme_ref(&format!("{path}.from"), line, &r.from, names);
+            let to = self.deme_ref(&format!("{path}.to"), line, &r.to, names);
+            if !(r.rate.is_finite() && (0.0..=1.0).contains(&r.rate)) {
+                self.err(format!("{path}.rate"), line, format!("{} is not a probability in [0, 1]", r.rate));
+                continue;
+            }
+            let (start, end) = match &r.generations_ago {
+                None => (0, u64::MAX),
+                Some(w) if w.len() == 2 => {
+                    let a = self.whole(&format!("{path}.generations_ago[0]"), line, w[0], 0.0, MAX_HORIZON as f64);
+                    let b = self.whole(&format!("{path}.generations_ago[1]"), line, w[1], 1.0, MAX_HORIZON as f64);
+                    match (a, b) {
+                        (Some(a), Some(b)) if a < b => (a, b),
+                        (Some(_), Some(_)) => {
+                            self.err(
+                                format!("{path}.generations_ago"),
+                                line,
+                                "the window [start, end) needs start < end",
+                            );
+                            continue;
+                        }
+                        _ => continue,
+                    }
+                }
+                Some(_) => {
+                    self.err(format!("{path}.generations_ago"), line, "give the window as [start, end]");
+                    continue;
+                }
+            };
+            let (Some(from), Some(to)) = (from, to) else { continue };
+            if from == to {
+                self.err(path.clone(), line, "`from` and `to` are the same deme: staying put is implied");
+                continue;
+            }
+            for e in &entries {
+                let e: &Entry = e;
+                if e.from == from && e.to == to && e.start < end && start < e.end {
+                    self.err(
+                        path.clone(),
+                        line,
+                        format!(
+                            "migration {} -> {} is given twice for overlapping times (see migration[{}])",
+                            names[from], names[to], e.idx
+                        ),
+                    );
+                }
+            }
+            entries.push(Entry { from, to, rate: r.rate, start, end, idx: i });
+        }
+        let mut cuts: Vec<u64> = vec![0];
+        for e in &entries {
+            cuts.push(e.start);
+            if e.end != u64::MAX {
+                cuts.push(e.end);
+            }
+        }
+        cuts.sort_unstable();
+        cuts.dedup();
+        let mut pieces = Vec::new();
+        let mut ok = true;
+        for (k, &start) in cuts.iter().enumerate() {
+            let end = cuts.get(k + 1).copied().unwrap_or(u64::MAX);
+            let mut m = vec![vec![0.0; n]; n];
+            for e in entries.iter().filter(|e| e.start <= start && start < e.end) {
+                m[e.from][e.to] += e.rate;
+            }
+            for (d, row) in m.iter_mut().enumerate() {
+                let off: f64 = row.iter().sum();
+                if off > 1.0 + 1e-12 {
+                    let when = if end == u64::MAX {
+                        format!("from {start} generations ago on")
+                    } else {
+                        format!("in [{start}, {end})")
+                    };
+                    self.err(
+                        "migration",
+                        None,
+                        format!("rates out of deme `{}` sum to {off} {when}: they must sum to at most 1", names[d]),
+                    );
+                    ok = false;
+                }
+                row[d] = (1.0 - off).max(0.0);
+            }
+            pieces.push((start, end, m));
+        }
+        ok.then(|| Migration::from_matrices(pieces))
+    }
+
+    fn deme_ref(&mut self, path: &str, line: Option<u64>, name: &str, names: &[&str]) -> Option<usize> {
+        let idx = names.iter().position(|n| *n == name);
+        if idx.is_none() {
+            self.err(path, line, format!("unknown deme `{name}` (demes: {})", names.join(", ")));
+        }
+        idx
+    }
+
+    #[allow(clippy::type_complexity)]
+    fn samples(
+        &mut self,
+        list: &[Spanned<RawSample>],
+        names: &[&str],
+        demes: &[Deme],
+        horizon: u64,
+    ) -> (Vec<SampledIndividual>, Vec<((usize, u64), SeedAge)>) {
+        let mut out: Vec<SampledIndividual> = Vec::new();
+        let mut seed_ages: Vec<((usize, u64), SeedAge)> = Vec::new();
+        let mut per_deme = vec![0usize; names.len()];
+        if list.is_empty() {
+            self.err("samples", None, "at least one sample is needed");
+        }
+        for (i, s) in list.iter().enumerate() {
+            let path = format!("samples[{i}]");
+            let line = line_of(s);
+            let r = &s.value;
+            let Some(deme) = self.deme_ref(&format!("{path}.deme"), line, &r.deme, names) else { continue };
+            let kind = match r.from.as_deref() {
+                None | Some("population") => SampleKind::Population,
+                Some("seedbank") => SampleKind::Seedbank,
+                Some(other) => {
+                    self.err(
+                        format!("{path}.from"),
+                        line,
+                        format!("`{other}` is not allowed: use population or seedbank"),
+                    );
+                    continue;
+                }
+            };
+            let times: Vec<u64> = match (&r.block, r.count, r.generations_ago) {
+                (Some(b), None, None) => {
+                    let (Some(a), Some(z)) = (
+                        self.whole(&format!("{path}.block.from"), line, b.from, 0.0, horizon as f64),
+                        self.whole(&format!("{path}.block.to"), line, b.to, 0.0, horizon as f64),
+                    ) else {
+                        continue;
+                    };
+                    if a > z || z - a >= MAX_SAMPLES as u64 {
+                        self.err(
+                            format!("{path}.block"),
+                            line,
+                            format!("needs from <= to and at most {MAX_SAMPLES} generations"),
+                        );
+                        continue;
+                    }
+                    (a..=z).collect()
+                }
+                (Some(_), _, _) => {
+                    self.err(path.clone(), line, "a `block` sample takes neither `count` nor `generations_ago`");
+                    continue;
+                }
+                (None, Some(c), t) => {
+                    let t = match t {
+                        Some(t) => match self.whole(&format!("{path}.generations_ago"), line, t, 0.0, horizon as f64) {
+                            Some(t) => t,
+                            None => continue,
+                        },
+                        None => 0,
+                    };
+                    if c == 0 || c as usize > MAX_SAMPLES {
+                        self.err(format!("{path}.count"), line, format!("count must be in 1..={MAX_SAMPLES}"));
+                        continue;
+                    }
+                    vec![t; c as usize]
+                }
+                (None, None, _) => {
+                    self.err(path.clone(), line, "a sample needs `count` (or a `block`)");
+                    continue;
+                }
+            };
+            if let (Some(d), SampleKind::Seedbank) = (demes.get(deme), kind) {
+                // Stationary laws share one sampler per deme; time-dependent ones need one per time.
+                let mut keys: Vec<u64> = if d.dormancy.is_time_dependent() { times.clone() } else { vec![0] };
+                keys.dedup();
+                for t in keys {
+                    if seed_ages.iter().any(|(k, _)| *k == (deme, t)) {
+                        continue;
+                    }
+                    match d.dormancy.seed_age_sampler(t) {
+                        Ok(s) => seed_ages.push(((deme, t), s)),
+                        Err(e) => {
+                            self.err(format!("{path}.from"), line, e.to_string());
+                            break;
+                        }
+                    }
+                }
+            }
+            for t in times {
+                out.push(SampledIndividual {
+                    deme,
+                    time: t,
+                    kind,
+                    label: format!("{}_{}", names[deme], per_deme[deme]),
+                });
+                per_deme[deme] += 1;
+            }
+        }
+        if out.len() > MAX_SAMPLES {
+            self.err("samples", None, format!("{} individuals sampled: at most {MAX_SAMPLES} are allowed", out.len()));
+        }
+        // A generation holds only N individuals: samples of one (deme, time) cannot exceed it.
+        let mut counts: Vec<((usize, u64), usize)> = Vec::new();
+        for s in out.iter().filter(|s| s.kind == SampleKind::Population) {
+            match counts.iter_mut().find(|(k, _)| *k == (s.deme, s.time)) {
+                Some((_, c)) => *c += 1,
+                None => counts.push(((s.deme, s.time), 1)),
+            }
+        }
+        for ((d, t), c) in counts {
+            if let Some(deme) = demes.get(d) {
+                let n = deme.size.at(t);
+                if c as u64 > n {
+                    self.err(
+                        "samples",
+                        None,
+                        format!(
+                            "{c} individuals sampled from deme `{}` at {t} generations ago, but it holds only {n}",
+                            names[d]
+                        ),
+                    );
+                }
+            }
+        }
+        (out, seed_ages)
+    }
+}
+
+fn keys_text(keys: &[&str]) -> String {
+    if keys.is_empty() { "none".to_string() } else { keys.join(", ") }
+}
+
+impl fmt::Display for Scenario {
+    fn fmt(&self, f: &mut fmt::Formatter<'_>) -> fmt::Result {
+        writeln!(f, "scenario: {}", self.name)?;
+        writeln!(f, "seed {}, {} replicates, horizon {} generations", self.seed, self.replicates, self.horizon)?;
+        for (i, d) in self.demes.iter().enumerate() {
+            let size = match d.size.as_constant() {
+                Some(n) => format!("{n}"),
+                None => d
+                    .size
+                    .epochs()
+                    .iter()
+                    .map(|e| format!("{} from {} (growth {})", e.size, e.start, e.growth))
+                    .collect::<Vec<_>>()
+                    .join("; "),
+            };
+            let mean =
+                crate::dormancy::LookBack::mean(&d.dormancy).map_or("infinite".to_string(), |m| format!("{m:.4}"));
+            let n = self.samples.iter().filter(|s| s.deme == i).count();
+            writeln!(
+                f,
+                "deme {}: size {size}; dormancy {} (mean look-back {mean}); {n} sampled",
+                d.name,
+                d.dormancy.law_name()
+            )?;
+        }
+        if self.migration.is_active() {
+            for e in self.migration.epochs() {
+                let end = if e.end() == u64::MAX { "inf".to_string() } else { e.end().to_string() };
+                writeln!(f, "migration for child times [{}, {end}):", e.start())?;
+                for (d, row) in e.matrix().iter().enumerate() {
+                    let cells: Vec<String> = row.iter().map(|p| format!("{p:.6}")).collect();
+                    writeln!(f, "  {:>12}: {}", self.demes[d].name, cells.join("  "))?;
+                }
+            }
+        } else {
+            writeln!(f, "no migration")?;
+        }
+        write!(f, "{} sampled individuals", self.samples.len())
+    }
+}
+
+#[cfg(test)]
+mod tests;
