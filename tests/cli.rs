@@ -1,0 +1,91 @@
+//! End-to-end tests of the `seedline` binary: files, columns, exit codes, determinism.
+
+use std::path::{Path, PathBuf};
+use std::process::{Command, Output};
+
+fn seedline(args: &[&str]) -> Output {
+    Command::new(env!("CARGO_BIN_EXE_seedline")).args(args).output().expect("the binary runs")
+}
+
+fn tempdir(name: &str) -> PathBuf {
+    let d = std::env::temp_dir().join(format!("seedline-cli-{name}-{}", std::process::id()));
+    let _ = std::fs::remove_dir_all(&d);
+    std::fs::create_dir_all(&d).unwrap();
+    d
+}
+
+fn write(dir: &Path, name: &str, text: &str) -> String {
+    let p = dir.join(name);
+    std::fs::write(&p, text).unwrap();
+    p.display().to_string()
+}
+
+#[test]
+fn simulate_the_embedded_demo() {
+    let d = tempdir("demo");
+    let out = d.join("run");
+    let o = seedline(&["simulate", "--replicates", "5", "--out", out.to_str().unwrap()]);
+    assert!(o.status.success(), "{}", String::from_utf8_lossy(&o.stderr));
+    let table = std::fs::read_to_string(out.join("replicates.tsv")).unwrap();
+    let mut lines = table.lines();
+    let header: Vec<&str> = lines.next().unwrap().split('\t').collect();
+    for col in ["replicate", "tmrca", "roots", "total_length", "jumps"] {
+        assert!(header.contains(&col), "missing column {col}");
+    }
+    assert_eq!(lines.count(), 5);
+    let trees = std::fs::read_to_string(out.join("trees.nwk")).unwrap();
+    assert!(trees.lines().all(|l| l.starts_with("[replicate ") && l.ends_with(';')));
+    let summary: serde_json::Value = serde_json::from_str(&std::fs::read_to_string(out.join("summary.json")).unwrap()).unwrap();
+    assert_eq!(summary["seed"], 7);
+    assert!(summary["provenance"]["generator"].as_str().unwrap().contains("ChaCha8"));
+    let stdout = String::from_utf8_lossy(&o.stdout);
+    assert!(stdout.contains("95% interval"), "{stdout}");
+    // No temporary file is left behind.
+    assert!(std::fs::read_dir(&out).unwrap().all(|e| !e.unwrap().file_name().to_string_lossy().ends_with(".tmp")));
+}
+
+#[test]
+fn output_is_identical_for_any_thread_count() {
+    let d = tempdir("threads");
+    let (a, b) = (d.join("a"), d.join("b"));
+    for (dir, t) in [(&a, "1"), (&b, "2")] {
+        let o = seedline(&["simulate", "--replicates", "30", "--seed", "5", "--threads", t, "--out", dir.to_str().unwrap()]);
+        assert!(o.status.success());
+    }
+    for f in ["replicates.tsv", "trees.nwk", "summary.json"] {
+        assert_eq!(std::fs::read(a.join(f)).unwrap(), std::fs::read(b.join(f)).unwrap(), "{f} differs");
+    }
+}
+
+#[test]
+fn bad_input_exits_with_2_and_names_file_key_and_line() {
+    let d = tempdir("bad");
+    let p = write(&d, "bad.yaml", "demes:\n  - name: a\n    size: 10\n    dormancy: {law: pareto, alpha: -1}\nsamples: [{deme: a, count: 2}]\n");
+    let o = seedline(&["simulate", &p, "--out", d.join("x").to_str().unwrap()]);
+    assert_eq!(o.status.code(), Some(2));
+    let err = String::from_utf8_lossy(&o.stderr);
+    assert!(err.contains("bad.yaml:4") && err.contains("demes[0].dormancy") && err.contains("alpha"), "{err}");
+    assert!(!d.join("x").join("replicates.tsv").exists());
+
+    let o = seedline(&["validate", d.join("missing.yaml").to_str().unwrap()]);
+    assert_eq!(o.status.code(), Some(2));
+    assert!(String::from_utf8_lossy(&o.stderr).contains("missing.yaml"));
+
+    let o = seedline(&["simulate", "--replicates", "many"]);
+    assert_eq!(o.status.code(), Some(2));
+}
+
+#[test]
+fn validate_prints_the_parsed_scenario() {
+    let o = seedline(&["validate", concat!(env!("CARGO_MANIFEST_DIR"), "/scenarios/demo.yaml")]);
+    assert!(o.status.success());
+    let s = String::from_utf8_lossy(&o.stdout);
+    assert!(s.contains("valid") && s.contains("deme north") && s.contains("geometric"), "{s}");
+}
+
+#[test]
+fn help_shows_examples() {
+    let o = seedline(&["simulate", "--help"]);
+    assert!(o.status.success());
+    assert!(String::from_utf8_lossy(&o.stdout).contains("Examples:"));
+}
