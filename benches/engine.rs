@@ -1,0 +1,126 @@
+//! Engine benchmarks: lineage steps per second, and the ratio of engine time to the time of
+//! drawing the same number of look-back values alone (the floor any exact engine must pay).
+//!
+//! Criterion measures each piece; the ratio section at the end measures engine and floor
+//! interleaved in one run (medians of 7 rounds), because the machines are shared and noisy.
+
+use criterion::{Criterion, Throughput, criterion_group};
+use rand::{Rng, SeedableRng, rngs::ChaCha8Rng};
+use seedline::batch::{master_key, replicate_rng};
+use seedline::dormancy::LookBack;
+use seedline::engine::Simulator;
+use seedline::scenario::Scenario;
+use std::hint::black_box;
+use std::time::Instant;
+
+const CASES: [(&str, &str); 4] = [
+    ("none", "demes: [{name: a, size: 2000}]\nsamples: [{deme: a, count: 20}]\n"),
+    ("geometric", "demes: [{name: a, size: 2000, dormancy: {law: geometric, mean: 3.5}}]\nsamples: [{deme: a, count: 20}]\n"),
+    (
+        "pareto_0.7",
+        "horizon: 1.0e7\ndemes: [{name: a, size: 100, dormancy: {law: pareto, alpha: 0.7}}]\nsamples: [{deme: a, count: 20}]\n",
+    ),
+    (
+        "block_1e4_alpha_0.3",
+        "horizon: 1.0e8\ndemes: [{name: a, size: 1, dormancy: {law: pareto, alpha: 0.3}}]\nsamples: [{deme: a, block: {from: 0, to: 9999}}]\n",
+    ),
+];
+
+fn scenario(yaml: &str) -> Scenario {
+    Scenario::from_yaml_str(yaml, "bench").unwrap()
+}
+
+/// Mean steps per replicate over a pilot run.
+fn pilot_steps(s: &Scenario, reps: u64) -> f64 {
+    let key = master_key(1);
+    let mut sim = Simulator::new();
+    (0..reps).map(|r| sim.simulate(s, &mut replicate_rng(&key, r)).steps() as f64).sum::<f64>() / reps as f64
+}
+
+fn bench_engine(c: &mut Criterion) {
+    let mut group = c.benchmark_group("engine");
+    group.sample_size(10);
+    for (name, yaml) in CASES {
+        let s = scenario(yaml);
+        let steps = pilot_steps(&s, 20);
+        group.throughput(Throughput::Elements(steps as u64));
+        let key = master_key(1);
+        let mut sim = Simulator::new();
+        let mut rep = 0u64;
+        group.bench_function(name, |b| {
+            b.iter(|| {
+                rep += 1;
+                black_box(sim.simulate(&s, &mut replicate_rng(&key, rep)).steps())
+            })
+        });
+        let law = s.demes()[0].dormancy().clone();
+        let mut rng = ChaCha8Rng::seed_from_u64(1);
+        group.throughput(Throughput::Elements(100_000));
+        group.bench_function(format!("{name}/draws_only"), |b| {
+            b.iter(|| {
+                let mut acc = 0u64;
+                for _ in 0..100_000 {
+                    acc = acc.wrapping_add(law.sample(&mut rng));
+                }
+                black_box(acc)
+            })
+        });
+    }
+    group.finish();
+}
+
+/// Prints steps per second and the engine / draws-alone ratio for each case.
+fn ratios() {
+    println!("\nratio of engine time to drawing the same number of look-backs (median of 7 rounds)");
+    println!("{:<22} {:>14} {:>14} {:>8}", "case", "steps/s", "draws/s", "ratio");
+    for (name, yaml) in CASES {
+        let s = scenario(yaml);
+        let law = s.demes()[0].dormancy().clone();
+        let key = master_key(2);
+        let mut sim = Simulator::new();
+        let mut rng = ChaCha8Rng::seed_from_u64(2);
+        let (mut engine_rates, mut draw_rates, mut ratios) = (Vec::new(), Vec::new(), Vec::new());
+        let mut rep = 0;
+        for _ in 0..7 {
+            let t0 = Instant::now();
+            let mut steps = 0u64;
+            while t0.elapsed().as_secs_f64() < 0.3 {
+                rep += 1;
+                steps += sim.simulate(&s, &mut replicate_rng(&key, rep)).steps();
+            }
+            let te = t0.elapsed().as_secs_f64();
+            let t1 = Instant::now();
+            let mut acc = 0u64;
+            for _ in 0..steps {
+                acc = acc.wrapping_add(law.sample(&mut rng));
+            }
+            black_box(acc);
+            let td = t1.elapsed().as_secs_f64();
+            engine_rates.push(steps as f64 / te);
+            draw_rates.push(steps as f64 / td);
+            ratios.push(te / td);
+        }
+        let med = |v: &mut Vec<f64>| {
+            v.sort_by(f64::total_cmp);
+            v[v.len() / 2]
+        };
+        println!(
+            "{name:<22} {:>14.3e} {:>14.3e} {:>8.2}",
+            med(&mut engine_rates),
+            med(&mut draw_rates),
+            med(&mut ratios)
+        );
+    }
+    let _ = ChaCha8Rng::seed_from_u64(0).next_u64();
+}
+
+criterion_group!(benches, bench_engine);
+
+fn main() {
+    let quick = std::env::args().any(|a| a == "--ratios-only");
+    if !quick {
+        benches();
+        Criterion::default().configure_from_args().final_summary();
+    }
+    ratios();
+}
