@@ -4,3 +4,4 @@
 
 pub mod dormancy;
 pub mod stats;
+pub mod theory;

@@ -1,0 +1,248 @@
+//! The seed-bank coalescent of Blath, González Casanova, Kurt & Wilke-Berenguer (2016,
+//! Ann. Appl. Probab. 26:857): the strong seed bank, where dormancy lasts of order N
+//! generations.
+//!
+//! Block-counting chain on (a, d) = (active, dormant) lineages, time in units of N
+//! generations (theory reference §5; the (c, cK) rate convention is as recalled there):
+//! ```text
+//! (a, d) → (a-1, d)     rate C(a, 2)   coalescence of two active lineages
+//! (a, d) → (a-1, d+1)   rate c a       an active lineage goes dormant
+//! (a, d) → (a+1, d-1)   rate c K d     a dormant lineage wakes
+//! ```
+//! The total a + d only decreases by coalescence, so expectations are solved level by level:
+//! within a level the states form a birth–death chain and each level is one tridiagonal
+//! system whose right-hand side uses the level below.
+
+use super::TheoryError;
+use super::error::check;
+use super::linalg::solve_tridiagonal;
+use crate::dormancy::{Dormancy, LookBack};
+
+/// Parameters (c, K) of the seed-bank coalescent.
+#[derive(Debug, Clone, Copy, PartialEq, serde::Serialize)]
+pub struct SeedBankCoalescent {
+    c: f64,
+    k: f64,
+}
+
+/// Expectations from a given starting configuration, in coalescent time units.
+#[derive(Debug, Clone, Copy, PartialEq, serde::Serialize)]
+pub struct SeedBankExpectations {
+    /// E[T_MRCA].
+    pub tmrca: f64,
+    /// E[total length of active branches].
+    pub active_length: f64,
+    /// E[total length of dormant branches].
+    pub dormant_length: f64,
+}
+
+impl SeedBankCoalescent {
+    /// Builds the model; c > 0 (switching rate) and K > 0 (ratio of active to dormant sizes).
+    pub fn new(c: f64, k: f64) -> Result<Self, TheoryError> {
+        check("c", c, "(0, inf)", |x| x > 0.0)?;
+        check("K", k, "(0, inf)", |x| x > 0.0)?;
+        Ok(SeedBankCoalescent { c, k })
+    }
+
+    /// The switching rate c.
+    pub fn c(&self) -> f64 {
+        self.c
+    }
+
+    /// The size ratio K.
+    pub fn k(&self) -> f64 {
+        self.k
+    }
+
+    /// Expectations for every state of every level up to `total` lineages.
+    ///
+    /// Returns, for the top level only, vectors indexed by the number of active lineages
+    /// a = 0..=total. Cost O(total²).
+    fn level_table(&self, total: u32) -> [Vec<f64>; 3] {
+        let (c, ck) = (self.c, self.c * self.k);
+        // Level 1: the MRCA is reached, nothing left to accumulate.
+        let mut prev: [Vec<f64>; 3] = [vec![0.0; 2], vec![0.0; 2], vec![0.0; 2]];
+        for level in 2..=total as usize {
+            let states = level + 1;
+            let (mut sub, mut diag, mut sup) = (vec![0.0; states], vec![0.0; states], vec![0.0; states]);
+            for a in 0..states {
+                let (af, df) = (a as f64, (level - a) as f64);
+                let coal = af * (af - 1.0) / 2.0;
+                diag[a] = coal + c * af + ck * df;
+                sub[a] = -c * af;
+                sup[a] = -ck * df;
+            }
+            let mut next: [Vec<f64>; 3] = [vec![], vec![], vec![]];
+            for (q, out) in next.iter_mut().enumerate() {
+                let rhs: Vec<f64> = (0..states)
+                    .map(|a| {
+                        let (af, df) = (a as f64, (level - a) as f64);
+                        let reward = [1.0, af, df][q];
+                        let coal = af * (af - 1.0) / 2.0;
+                        // Coalescence moves to level-1 with a-1 active lineages.
+                        reward + if a >= 2 { coal * prev[q][a - 1] } else { 0.0 }
+                    })
+                    .collect();
+                // Diagonally dominant (strictly for a >= 2), so Thomas is stable.
+                *out = solve_tridiagonal(&sub, &diag, &sup, &rhs).expect("diagonally dominant system");
+            }
+            prev = next;
+        }
+        prev
+    }
+
+    /// Expectations of T_MRCA and active/dormant branch lengths from `active` active and
+    /// `dormant` dormant lineages (coalescent units: multiply by N for generations).
+    ///
+    /// ```text
+    /// q(a) τ(a) = r(a) + C(a,2) τ_{level-1}(a-1) + c a τ(a-1) + cK d τ(a+1)
+    /// q(a) = C(a,2) + c a + cK d,   r = 1 (time), a (active length) or d (dormant length)
+    /// ```
+    /// Needs at least one lineage; one lineage gives zeros.
+    pub fn expectations(&self, active: u32, dormant: u32) -> Result<SeedBankExpectations, TheoryError> {
+        let total = active
+            .checked_add(dormant)
+            .filter(|&t| t >= 1)
+            .ok_or(TheoryError::SampleSize { n: active.saturating_add(dormant), allowed: "1..=u32::MAX lineages" })?;
+        let [t, la, ld] = self.level_table(total);
+        let a = active as usize;
+        Ok(SeedBankExpectations { tmrca: t[a], active_length: la[a], dormant_length: ld[a] })
+    }
+
+    /// Two-lineage expected MRCA times (t_AA, t_AD, t_DD) (theory reference §5.1).
+    ///
+    /// ```text
+    /// t_AA = (1 + 1/K)²,   t_AD = t_AA + 1/(cK) + 1/(2cK²),   t_DD = t_AD + 1/(2cK)
+    /// ```
+    /// Computed from the chain, not from the closed form.
+    pub fn two_lineage_times(&self) -> (f64, f64, f64) {
+        let [t, _, _] = self.level_table(2);
+        (t[2], t[1], t[0])
+    }
+
+    /// Recognises the look-back law of theory reference §5.3 and returns its (c, K) for N.
+    ///
+    /// Accepts a `Dormancy::Mixture` of `None` parts (total weight 1 - w) and exactly one
+    /// `Geometric` part of weight w and mean g > 1. By memorylessness that geometric part is
+    /// R = 1 with probability 1/g, else 1 + Geometric(mean g), so the law is
+    /// ```text
+    /// R_N = 1 w.p. 1 - c/N,   else 1 + G with E[G] = N/(cK)
+    /// c = N w (g - 1)/g,      K = N / (c g)
+    /// ```
+    /// and E[R_N] = 1 + 1/K. Anything else gives `None`, as does a non-finite or non-positive N.
+    /// The (c, K) description is the N → ∞ limit, in units of N generations.
+    pub fn from_lookback(dormancy: &Dormancy, pop_size: f64) -> Option<SeedBankCoalescent> {
+        if !(pop_size.is_finite() && pop_size > 0.0) {
+            return None;
+        }
+        let Dormancy::Mixture(mix) = dormancy else { return None };
+        let mut long = None;
+        for (w, part) in mix.parts() {
+            match part {
+                Dormancy::None => {}
+                Dormancy::Geometric(g) if long.is_none() => long = Some((*w, g.mean()?)),
+                _ => return None,
+            }
+        }
+        let (w, g) = long?;
+        if !(w > 0.0 && g > 1.0) {
+            return None;
+        }
+        let c = pop_size * w * (g - 1.0) / g;
+        SeedBankCoalescent::new(c, pop_size / (c * g)).ok()
+    }
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+    use crate::dormancy::{Geometric, Mixture};
+
+    fn close(a: f64, b: f64, tol: f64) -> bool {
+        (a - b).abs() <= tol
+    }
+
+    #[test]
+    fn two_lineage_table() {
+        // Source: theory reference §5.1 table (BGKW 2016 model, exact).
+        for (c, k, aa, ad, dd) in [
+            (1.0, 1.0, 4.0, 5.5, 6.0),
+            (1.0, 2.0, 2.25, 23.0 / 8.0, 25.0 / 8.0),
+            (2.0, 1.0, 4.0, 4.75, 5.0),
+            (0.5, 0.5, 9.0, 17.0, 19.0),
+        ] {
+            let m = SeedBankCoalescent::new(c, k).unwrap();
+            let (taa, tad, tdd) = m.two_lineage_times();
+            assert!(close(taa, aa, 1e-12) && close(tad, ad, 1e-12) && close(tdd, dd, 1e-12), "c={c} K={k}");
+            // Closed forms of §5.1.
+            assert!(close(taa, (1.0 + 1.0 / k).powi(2), 1e-12));
+            assert!(close(tad, taa + 1.0 / (c * k) + 1.0 / (2.0 * c * k * k), 1e-12));
+            assert!(close(tdd, tad + 1.0 / (2.0 * c * k), 1e-12));
+        }
+    }
+
+    #[test]
+    fn n_lineage_table_c1_k1() {
+        // Source: theory reference §5.2 table, c = K = 1, all lineages active at start.
+        let m = SeedBankCoalescent::new(1.0, 1.0).unwrap();
+        for (n, t, la) in [
+            (2, 4.0, 4.0),
+            (3, 5.5, 6.0),
+            (5, 755989.0 / 110400.0, 8.297101),
+            (10, 8.070856, 11.146948),
+            (50, 9.616924, 17.054774),
+            (100, 10.018678, 19.399727),
+            (1000, 10.894179, 26.657874),
+        ] {
+            let e = m.expectations(n, 0).unwrap();
+            assert!(close(e.tmrca, t, 1e-6), "n = {n}: {}", e.tmrca);
+            assert!(close(e.active_length, la, 1e-6), "n = {n}: {}", e.active_length);
+            assert!(close(e.dormant_length, la, 1e-6), "n = {n}");
+        }
+        assert!(close(m.expectations(5, 0).unwrap().tmrca, 6.8477264493, 1e-10));
+        assert_eq!(m.expectations(1, 0).unwrap().tmrca, 0.0);
+        assert!(m.expectations(0, 0).is_err());
+    }
+
+    #[test]
+    fn other_parameters() {
+        // Source: theory reference §5.2, "Other parameters".
+        for (c, k, vals) in [
+            (1.0, 2.0, [2.25, 4.337638, 5.201443]),
+            (2.0, 1.0, [4.0, 7.705733, 9.137358]),
+            (0.5, 1.0, [4.0, 8.563767, 11.324689]),
+        ] {
+            let m = SeedBankCoalescent::new(c, k).unwrap();
+            for (n, want) in [2, 10, 100].into_iter().zip(vals) {
+                let e = m.expectations(n, 0).unwrap();
+                assert!(close(e.tmrca, want, 1e-6), "c={c} K={k} n={n}: {}", e.tmrca);
+                // Exact identity E[L_dormant] = E[L_active]/K (§5.2).
+                assert!(close(e.dormant_length, e.active_length / k, 1e-9 * e.active_length));
+            }
+        }
+        assert!(SeedBankCoalescent::new(0.0, 1.0).is_err());
+    }
+
+    #[test]
+    fn lookback_mapping() {
+        // Source: theory reference §5.3: R_N = 1 w.p. 1 - c/N, else 1 + Geometric(mean N/(cK)),
+        // E[R_N] = 1 + 1/K. Built here as (1-w) none + w geometric(mean g) with g = N/(cK),
+        // w = (c/N) g/(g-1), which is the same law by memorylessness.
+        for (n, c, k) in [(100.0, 1.0, 1.0), (1000.0, 0.5, 2.0)] {
+            let g: f64 = n / (c * k);
+            let w = c / n * g / (g - 1.0);
+            let law = Dormancy::Mixture(
+                Mixture::new(vec![(1.0 - w, Dormancy::None), (w, Dormancy::Geometric(Geometric::new(g).unwrap()))])
+                    .unwrap(),
+            );
+            assert!(close(law.mean().unwrap(), 1.0 + 1.0 / k, 1e-12));
+            let m = SeedBankCoalescent::from_lookback(&law, n).unwrap();
+            assert!(close(m.c(), c, 1e-12) && close(m.k(), k, 1e-12), "{m:?}");
+            // P(R_N = 1) = 1 - c/N.
+            assert!(close(law.pmf(1), 1.0 - c / n, 1e-12));
+        }
+        assert!(SeedBankCoalescent::from_lookback(&Dormancy::None, 100.0).is_none());
+        let g = Dormancy::Geometric(Geometric::new(5.0).unwrap());
+        assert!(SeedBankCoalescent::from_lookback(&g, 100.0).is_none());
+    }
+}
