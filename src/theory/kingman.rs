@@ -5,7 +5,7 @@
 //! multiplied by `pop_size`, variances by its square. θ = 2Nμ with μ per sequence and
 //! generation.
 
-use super::TheoryError;
+use super::error::TheoryError;
 use crate::stats::{harmonic, harmonic_squares};
 
 /// E[T_MRCA] = 2N(1 - 1/n) generations (Kingman 1982, SPA 13:235). 0 for n <= 1.

@@ -5,7 +5,7 @@
 //! that simulations are tested against. Times are in generations, population sizes count
 //! haploid individuals, and θ = 2Nμ unless a function says otherwise.
 
-mod error;
+pub mod error;
 mod linalg;
 
 pub mod kingman;
@@ -13,5 +13,3 @@ pub mod seedbank_coalescent;
 pub mod structured;
 pub mod two_lineage;
 pub mod weak_seedbank;
-
-pub use error::TheoryError;

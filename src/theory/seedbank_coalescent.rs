@@ -13,7 +13,7 @@
 //! within a level the states form a birth–death chain and each level is one tridiagonal
 //! system whose right-hand side uses the level below.
 
-use super::TheoryError;
+use super::error::TheoryError;
 use super::error::check;
 use super::linalg::solve_tridiagonal;
 use crate::dormancy::{Dormancy, LookBack};

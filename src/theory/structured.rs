@@ -6,7 +6,7 @@
 //! deme k they pick the same parent with probability 1/N_k. No dormancy in the chain itself;
 //! see [`PairTimes::with_weak_seed_bank`].
 
-use super::TheoryError;
+use super::error::TheoryError;
 use super::linalg::solve;
 use crate::dormancy::Dormancy;
 

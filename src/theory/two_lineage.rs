@@ -9,7 +9,7 @@
 //! T_2 is the generation of the common parent. Pure linear algebra and forward recursion:
 //! no sampling.
 
-use super::TheoryError;
+use super::error::TheoryError;
 use super::linalg::solve;
 use super::weak_seedbank::MutationRates;
 use crate::dormancy::{Dormancy, LookBack};

@@ -6,7 +6,7 @@
 //! exact chain in [`super::two_lineage`]); for larger samples the time change is the
 //! large-N limit.
 
-use super::TheoryError;
+use super::error::TheoryError;
 use super::error::check;
 use crate::dormancy::{Dormancy, LookBack};
 
