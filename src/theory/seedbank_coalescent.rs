@@ -15,8 +15,17 @@
 
 use super::error::TheoryError;
 use super::error::check;
-use super::linalg::solve_tridiagonal;
+use super::linalg::{solve, solve_tridiagonal};
 use crate::dormancy::{Dormancy, LookBack};
+use std::collections::HashMap;
+
+/// Largest sample size accepted by [`SeedBankCoalescent::branch_lengths_by_class`].
+pub const SFS_MAX_SAMPLE: u32 = 12;
+
+/// Flag state (active blocks per size) → expected lengths by class (active, then dormant).
+type FlagTable = HashMap<Vec<usize>, Vec<f64>>;
+/// Block-size multiset → its flag table.
+type PartitionMemo = HashMap<Vec<usize>, FlagTable>;
 
 /// Parameters (c, K) of the seed-bank coalescent.
 #[derive(Debug, Clone, Copy, PartialEq, serde::Serialize)]
@@ -118,6 +127,120 @@ impl SeedBankCoalescent {
     pub fn two_lineage_times(&self) -> (f64, f64, f64) {
         let [t, _, _] = self.level_table(2);
         (t[2], t[1], t[0])
+    }
+
+    /// Expected lengths of active and dormant branches subtending i = 1..n-1 of n sampled
+    /// leaves (all active at the start), in coalescent units: `(active, dormant)`.
+    ///
+    /// First-step analysis on the block process with block sizes tracked: for each multiset
+    /// of block sizes, the flag states (how many blocks of each size are active) are linked
+    /// by switching only, and one dense solve per multiset uses the values of the multisets
+    /// with one block fewer. The expected SFS with infinite sites is
+    /// ```text
+    /// E[ξ_i] = (θ/2) (E[L_i^act] + ρ E[L_i^dor])
+    /// ```
+    /// with ρ the relative mutation rate while dormant (see [`Self::expected_sfs`]). The state
+    /// space grows like the partitions of n, so n is limited to 2..=[`SFS_MAX_SAMPLE`].
+    pub fn branch_lengths_by_class(&self, n: u32) -> Result<(Vec<f64>, Vec<f64>), TheoryError> {
+        if !(2..=SFS_MAX_SAMPLE).contains(&n) {
+            return Err(TheoryError::SampleSize { n, allowed: "2..=SFS_MAX_SAMPLE" });
+        }
+        let n = n as usize;
+        let mut mult = vec![0usize; n + 1];
+        mult[1] = n;
+        let mut memo = HashMap::new();
+        let table = self.solve_partition(&mult, &mut memo)?;
+        let mut act = vec![0usize; n + 1];
+        act[1] = n;
+        let v = &table[&act];
+        Ok((v[..n - 1].to_vec(), v[n - 1..].to_vec()))
+    }
+
+    /// Expected unfolded SFS E[ξ_1..ξ_{n-1}] for θ (per N generations, active) and relative
+    /// dormant mutation rate ρ >= 0; see [`Self::branch_lengths_by_class`].
+    pub fn expected_sfs(&self, n: u32, theta: f64, rho: f64) -> Result<Vec<f64>, TheoryError> {
+        check("theta", theta, "[0, inf)", |x| x >= 0.0)?;
+        check("rho", rho, "[0, inf)", |x| x >= 0.0)?;
+        let (la, ld) = self.branch_lengths_by_class(n)?;
+        Ok(la.iter().zip(&ld).map(|(a, d)| theta / 2.0 * (a + rho * d)).collect())
+    }
+
+    /// Values of every flag state of the block-size multiset `mult` (mult[s] = blocks of size s).
+    fn solve_partition(&self, mult: &[usize], memo: &mut PartitionMemo) -> Result<FlagTable, TheoryError> {
+        let n = mult.len() - 1;
+        let width = 2 * (n - 1);
+        // Enumerate flag states act[s] in 0..=mult[s] with an odometer.
+        let sizes: Vec<usize> = (1..=n).filter(|&s| mult[s] > 0).collect();
+        let mut states = Vec::new();
+        let mut act = vec![0usize; n + 1];
+        loop {
+            states.push(act.clone());
+            let mut k = 0;
+            while k < sizes.len() && act[sizes[k]] == mult[sizes[k]] {
+                act[sizes[k]] = 0;
+                k += 1;
+            }
+            if k == sizes.len() {
+                break;
+            }
+            act[sizes[k]] += 1;
+        }
+        let index: HashMap<Vec<usize>, usize> = states.iter().cloned().enumerate().map(|(i, a)| (a, i)).collect();
+        let m = states.len();
+        let mut a = vec![0.0; m * m];
+        let mut rhs = vec![0.0; m * width];
+        let (c, ck) = (self.c, self.c * self.k);
+        for (row, st) in states.iter().enumerate() {
+            let mut q = 0.0;
+            for s in 1..n {
+                rhs[row * width + s - 1] = st[s] as f64;
+                rhs[row * width + n - 1 + s - 1] = (mult[s] - st[s]) as f64;
+            }
+            for (x, &s) in sizes.iter().enumerate() {
+                let (act_s, dor_s) = (st[s] as f64, (mult[s] - st[s]) as f64);
+                if act_s > 0.0 {
+                    q += c * act_s;
+                    let mut to = st.clone();
+                    to[s] -= 1;
+                    a[row * m + index[&to]] -= c * act_s;
+                }
+                if dor_s > 0.0 {
+                    q += ck * dor_s;
+                    let mut to = st.clone();
+                    to[s] += 1;
+                    a[row * m + index[&to]] -= ck * dor_s;
+                }
+                for &t in &sizes[x..] {
+                    let pairs = if s == t { act_s * (act_s - 1.0) / 2.0 } else { act_s * st[t] as f64 };
+                    if pairs <= 0.0 {
+                        continue;
+                    }
+                    q += pairs;
+                    if s + t == n {
+                        continue; // the MRCA: nothing left to accumulate
+                    }
+                    let mut child = mult.to_vec();
+                    child[s] -= 1;
+                    child[t] -= 1;
+                    child[s + t] += 1;
+                    let mut child_act = st.clone();
+                    child_act[s] -= 1;
+                    child_act[t] -= 1;
+                    child_act[s + t] += 1;
+                    if !memo.contains_key(&child) {
+                        let solved = self.solve_partition(&child, memo)?;
+                        memo.insert(child.clone(), solved);
+                    }
+                    let v = &memo[&child][&child_act];
+                    for k in 0..width {
+                        rhs[row * width + k] += pairs * v[k];
+                    }
+                }
+            }
+            a[row * m + row] += q;
+        }
+        let x = solve(a, m, rhs, width).ok_or(TheoryError::Singular)?;
+        Ok(states.into_iter().enumerate().map(|(i, st)| (st, x[i * width..(i + 1) * width].to_vec())).collect())
     }
 
     /// Recognises the look-back law of theory reference §5.3 and returns its (c, K) for N.
@@ -244,5 +367,31 @@ mod tests {
         assert!(SeedBankCoalescent::from_lookback(&Dormancy::None, 100.0).is_none());
         let g = Dormancy::Geometric(Geometric::new(5.0).unwrap());
         assert!(SeedBankCoalescent::from_lookback(&g, 100.0).is_none());
+    }
+    #[test]
+    fn sfs_n5_exact() {
+        // Source: theory reference §5.2, exact E[L_i^act] = E[L_i^dor] for n = 5, c = K = 1:
+        // 52537/14720, 43189/22080, 32011/22080, 19463/14720.
+        let m = SeedBankCoalescent::new(1.0, 1.0).unwrap();
+        let (la, ld) = m.branch_lengths_by_class(5).unwrap();
+        let want = [52537.0 / 14720.0, 43189.0 / 22080.0, 32011.0 / 22080.0, 19463.0 / 14720.0];
+        for i in 0..4 {
+            assert!(close(la[i], want[i], 1e-10) && close(ld[i], want[i], 1e-10), "i = {}", i + 1);
+        }
+        let sfs = m.expected_sfs(5, 2.0, 0.5).unwrap();
+        assert!(close(sfs[0], 1.5 * want[0], 1e-10));
+        // Independent check against the level-by-level solver: Σ_i L_i = total lengths; and the
+        // class-by-class identity L_i^dor = L_i^act / K (§5.2) for K = 2.
+        for (c, k, n) in [(1.0, 2.0, 6u32), (0.5, 1.0, 7)] {
+            let m = SeedBankCoalescent::new(c, k).unwrap();
+            let (la, ld) = m.branch_lengths_by_class(n).unwrap();
+            let e = m.expectations(n, 0).unwrap();
+            assert!(close(la.iter().sum::<f64>(), e.active_length, 1e-9));
+            assert!(close(ld.iter().sum::<f64>(), e.dormant_length, 1e-9));
+            for i in 0..la.len() {
+                assert!(close(ld[i], la[i] / k, 1e-9), "i = {}", i + 1);
+            }
+        }
+        assert!(m.branch_lengths_by_class(1).is_err() && m.branch_lengths_by_class(13).is_err());
     }
 }
