@@ -40,7 +40,7 @@ pub enum TheoryError {
         /// The largest supported value.
         limit: u64,
     },
-    /// The quantity needs E[R] < infinity.
+    /// The quantity needs E\[R] < infinity.
     #[error("the look-back law has an infinite mean")]
     InfiniteMean,
     /// The quantity needs a law that does not depend on time.

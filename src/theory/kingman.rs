@@ -8,7 +8,7 @@
 use super::error::TheoryError;
 use crate::stats::{harmonic, harmonic_squares};
 
-/// E[T_MRCA] = 2N(1 - 1/n) generations (Kingman 1982, SPA 13:235). 0 for n <= 1.
+/// E\[T_MRCA] = 2N(1 - 1/n) generations (Kingman 1982, SPA 13:235). 0 for n <= 1.
 ///
 /// ```text
 /// E[T_MRCA] = N Σ_{k=2}^{n} 2/(k(k-1)) = 2N (1 - 1/n)
@@ -17,7 +17,7 @@ pub fn tmrca_mean(n: u32, pop_size: f64) -> f64 {
     if n < 2 { 0.0 } else { 2.0 * pop_size * (1.0 - 1.0 / f64::from(n)) }
 }
 
-/// Var[T_MRCA] in generations² (Kingman 1982). 0 for n <= 1.
+/// Var\[T_MRCA] in generations² (Kingman 1982). 0 for n <= 1.
 ///
 /// ```text
 /// Var[T_MRCA] = N² Σ_{k=2}^{n} 4/(k²(k-1)²)
@@ -27,7 +27,7 @@ pub fn tmrca_variance(n: u32, pop_size: f64) -> f64 {
     pop_size * pop_size * s
 }
 
-/// E[L] = 2N a_n, the expected total branch length in lineage-generations (Kingman 1982).
+/// E\[L] = 2N a_n, the expected total branch length in lineage-generations (Kingman 1982).
 ///
 /// ```text
 /// E[L] = 2N Σ_{i=1}^{n-1} 1/i
@@ -36,7 +36,7 @@ pub fn total_length_mean(n: u32, pop_size: f64) -> f64 {
     2.0 * pop_size * harmonic(n)
 }
 
-/// Var[L] = 4N² b_n (Kingman 1982; Watterson 1975).
+/// Var\[L] = 4N² b_n (Kingman 1982; Watterson 1975).
 ///
 /// ```text
 /// Var[L] = 4N² Σ_{i=1}^{n-1} 1/i²
@@ -45,7 +45,7 @@ pub fn total_length_variance(n: u32, pop_size: f64) -> f64 {
     4.0 * pop_size * pop_size * harmonic_squares(n)
 }
 
-/// Expected unfolded SFS E[ξ_i] = θ/i for i = 1..n-1 (Fu 1995, TPB 48:172). Empty for n < 2.
+/// Expected unfolded SFS E\[ξ_i] = θ/i for i = 1..n-1 (Fu 1995, TPB 48:172). Empty for n < 2.
 ///
 /// ```text
 /// E[ξ_i] = θ / i
@@ -54,7 +54,7 @@ pub fn expected_sfs(n: u32, theta: f64) -> Vec<f64> {
     (1..n).map(|i| theta / f64::from(i)).collect()
 }
 
-/// Expected folded SFS E[η_i], i = 1..floor(n/2) (follows from E[ξ_i] = θ/i).
+/// Expected folded SFS E\[η_i], i = 1..floor(n/2) (follows from E\[ξ_i] = θ/i).
 ///
 /// ```text
 /// E[η_i] = θ n / (i (n-i) (1 + δ_{i, n-i}))
@@ -70,17 +70,17 @@ pub fn expected_folded_sfs(n: u32, theta: f64) -> Vec<f64> {
         .collect()
 }
 
-/// E[S] = θ a_n (Watterson 1975, TPB 7:256).
+/// E\[S] = θ a_n (Watterson 1975, TPB 7:256).
 pub fn segregating_sites_mean(n: u32, theta: f64) -> f64 {
     theta * harmonic(n)
 }
 
-/// Var[S] = θ a_n + θ² b_n (Watterson 1975).
+/// Var\[S] = θ a_n + θ² b_n (Watterson 1975).
 pub fn segregating_sites_variance(n: u32, theta: f64) -> f64 {
     theta * harmonic(n) + theta * theta * harmonic_squares(n)
 }
 
-/// Var[π] = b1 θ + b2 θ² (Tajima 1983, Genetics 105:437); E[π] = θ. `None` for n < 2.
+/// Var\[π] = b1 θ + b2 θ² (Tajima 1983, Genetics 105:437); E\[π] = θ. `None` for n < 2.
 ///
 /// ```text
 /// b1 = (n+1)/(3(n-1)),   b2 = 2(n²+n+3)/(9n(n-1))
@@ -117,7 +117,7 @@ pub fn segregating_sites_pmf(n: u32, theta: f64, kmax: usize) -> Result<Vec<f64>
     Ok(pmf)
 }
 
-/// E[K_n], the expected number of distinct alleles (Ewens 1972, TPB 3:87).
+/// E\[K_n], the expected number of distinct alleles (Ewens 1972, TPB 3:87).
 ///
 /// ```text
 /// E[K_n] = Σ_{i=0}^{n-1} θ/(θ+i)
@@ -128,7 +128,7 @@ pub fn ewens_alleles_mean(n: u32, theta: f64) -> f64 {
     (0..n).map(|i| theta / (theta + f64::from(i))).sum()
 }
 
-/// Var[K_n] (Ewens 1972): K_n is a sum of independent Bernoulli(θ/(θ+i)), i = 0..n-1.
+/// Var\[K_n] (Ewens 1972): K_n is a sum of independent Bernoulli(θ/(θ+i)), i = 0..n-1.
 ///
 /// ```text
 /// Var[K_n] = Σ_{i=1}^{n-1} θ i/(θ+i)²
@@ -185,13 +185,13 @@ pub fn fu_covariances(n: u32) -> Vec<Vec<f64>> {
 /// Exact expectations of the discrete haploid Wright–Fisher genealogy.
 #[derive(Debug, Clone, Copy, PartialEq, serde::Serialize)]
 pub struct WrightFisherExact {
-    /// E[T_MRCA] in generations.
+    /// E\[T_MRCA] in generations.
     pub tmrca_mean: f64,
-    /// E[L] in lineage-generations (each lineage alive in a generation counts 1).
+    /// E\[L] in lineage-generations (each lineage alive in a generation counts 1).
     pub total_length_mean: f64,
 }
 
-/// Exact E[T_MRCA] and E[L] of n lineages in a Wright–Fisher deme of N haploids.
+/// Exact E\[T_MRCA] and E\[L] of n lineages in a Wright–Fisher deme of N haploids.
 ///
 /// Each generation, k lineages pick parents uniformly with replacement, leaving j distinct:
 /// ```text

@@ -37,11 +37,11 @@ pub struct SeedBankCoalescent {
 /// Expectations from a given starting configuration, in coalescent time units.
 #[derive(Debug, Clone, Copy, PartialEq, serde::Serialize)]
 pub struct SeedBankExpectations {
-    /// E[T_MRCA].
+    /// E\[T_MRCA].
     pub tmrca: f64,
-    /// E[total length of active branches].
+    /// E\[total length of active branches].
     pub active_length: f64,
-    /// E[total length of dormant branches].
+    /// E\[total length of dormant branches].
     pub dormant_length: f64,
 }
 
@@ -156,7 +156,7 @@ impl SeedBankCoalescent {
         Ok((v[..n - 1].to_vec(), v[n - 1..].to_vec()))
     }
 
-    /// Expected unfolded SFS E[ξ_1..ξ_{n-1}] for θ (per N generations, active) and relative
+    /// Expected unfolded SFS E\[ξ_1..ξ_{n-1}] for θ (per N generations, active) and relative
     /// dormant mutation rate ρ >= 0; see [`Self::branch_lengths_by_class`].
     pub fn expected_sfs(&self, n: u32, theta: f64, rho: f64) -> Result<Vec<f64>, TheoryError> {
         check("theta", theta, "[0, inf)", |x| x >= 0.0)?;
@@ -165,7 +165,7 @@ impl SeedBankCoalescent {
         Ok(la.iter().zip(&ld).map(|(a, d)| theta / 2.0 * (a + rho * d)).collect())
     }
 
-    /// Values of every flag state of the block-size multiset `mult` (mult[s] = blocks of size s).
+    /// Values of every flag state of the block-size multiset `mult` (mult\[s] = blocks of size s).
     fn solve_partition(&self, mult: &[usize], memo: &mut PartitionMemo) -> Result<FlagTable, TheoryError> {
         let n = mult.len() - 1;
         let width = 2 * (n - 1);
@@ -252,7 +252,7 @@ impl SeedBankCoalescent {
     /// R_N = 1 w.p. 1 - c/N,   else 1 + G with E[G] = N/(cK)
     /// c = N w (g - 1)/g,      K = N / (c g)
     /// ```
-    /// and E[R_N] = 1 + 1/K. Anything else gives `None`, as does a non-finite or non-positive N.
+    /// and E\[R_N] = 1 + 1/K. Anything else gives `None`, as does a non-finite or non-positive N.
     /// The (c, K) description is the N → ∞ limit, in units of N generations.
     pub fn from_lookback(dormancy: &Dormancy, pop_size: f64) -> Option<SeedBankCoalescent> {
         if !(pop_size.is_finite() && pop_size > 0.0) {

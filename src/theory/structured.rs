@@ -2,7 +2,7 @@
 //! two-lineage chain for D demes of sizes N_d with a backward migration matrix.
 //!
 //! Each generation both lineages independently pick the deme of their parent from their
-//! row of M (M[i][k] = P(parent in deme k | lineage in deme i)); if they land in the same
+//! row of M (M\[i]\[k] = P(parent in deme k | lineage in deme i)); if they land in the same
 //! deme k they pick the same parent with probability 1/N_k. No dormancy in the chain itself;
 //! see [`PairTimes::with_weak_seed_bank`].
 
@@ -10,7 +10,7 @@ use super::error::TheoryError;
 use super::linalg::solve;
 use crate::dormancy::Dormancy;
 
-/// Expected coalescence times E[T(i, j)] in generations for two lineages sampled in demes
+/// Expected coalescence times E\[T(i, j)] in generations for two lineages sampled in demes
 /// i and j (distinct individuals when i = j).
 #[derive(Debug, Clone, PartialEq, serde::Serialize)]
 pub struct PairTimes {
@@ -25,7 +25,7 @@ impl PairTimes {
         self.demes
     }
 
-    /// E[T(i, j)]. Panics when a deme index is out of range.
+    /// E\[T(i, j)]. Panics when a deme index is out of range.
     pub fn get(&self, i: usize, j: usize) -> f64 {
         assert!(i < self.demes && j < self.demes, "deme index out of range");
         self.times[i * self.demes + j]
@@ -41,7 +41,7 @@ impl PairTimes {
         1.0 - 0.5 * (self.get(i, i) + self.get(j, j)) / self.get(i, j)
     }
 
-    /// Multiplies every time by the weak-seed-bank factor E[R]²/d of a dormancy law shared by
+    /// Multiplies every time by the weak-seed-bank factor E\[R]²/d of a dormancy law shared by
     /// all demes.
     ///
     /// This is the large-N scaling of Kaj, Krone & Lascoux (2001): exact for the mean of one
@@ -59,7 +59,7 @@ fn pair_index(i: usize, j: usize, d: usize) -> usize {
     i * d - i * (i + 1) / 2 + j
 }
 
-/// Exact E[T(i, j)] for all pairs of demes, by solving the first-step equations.
+/// Exact E\[T(i, j)] for all pairs of demes, by solving the first-step equations.
 ///
 /// ```text
 /// T(i,j) = 1 + Σ_{k,l} M[i][k] M[j][l] · (k = l ? (1 - 1/N_k) T(k,k) : T(k,l))

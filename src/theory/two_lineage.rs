@@ -32,9 +32,9 @@ struct Step {
 /// First and second moments of T_2.
 #[derive(Debug, Clone, Copy, PartialEq, serde::Serialize)]
 pub struct PairMoments {
-    /// E[T_2] in generations.
+    /// E\[T_2] in generations.
     pub mean: f64,
-    /// Var[T_2] in generations².
+    /// Var\[T_2] in generations².
     pub variance: f64,
 }
 
@@ -42,7 +42,7 @@ pub struct PairMoments {
 #[derive(Debug, Clone)]
 pub struct PairChain {
     pop_size: u32,
-    /// steps[g]: transitions out of gap g.
+    /// steps\[g]: transitions out of gap g.
     steps: Vec<Vec<Step>>,
 }
 
@@ -148,12 +148,12 @@ impl PairChain {
         Ok(index.iter().map(|&i| if i == usize::MAX { f64::NAN } else { x[i] }).collect())
     }
 
-    /// E[T_2] and Var[T_2], by solving the first-step equations for the first two moments.
+    /// E\[T_2] and Var\[T_2], by solving the first-step equations for the first two moments.
     ///
     /// ```text
     /// h1(g) = Σ p (δ + h1(g')),   h2(g) = Σ p (δ² + 2 δ h1(g') + h2(g'))
     /// ```
-    /// The mean equals N E[R]²/d exactly (theory reference §3.2), which the tests check.
+    /// The mean equals N E\[R]²/d exactly (theory reference §3.2), which the tests check.
     pub fn moments(&self) -> Result<PairMoments, TheoryError> {
         let h1 = self.expected_reward(|s| s.delta as f64)?;
         let after = |s: &Step| s.next.map_or(0.0, |g| h1[g]);
@@ -166,15 +166,15 @@ impl PairChain {
 
     /// Expected number of parent–offspring links on both lineages together, up to the MRCA.
     ///
-    /// Equals 2 N E[R]/d (theory reference §3.3).
+    /// Equals 2 N E\[R]/d (theory reference §3.3).
     pub fn expected_links(&self) -> Result<f64, TheoryError> {
         Ok(self.expected_reward(|s| s.draws.iter().filter(|&&r| r > 0).count() as f64)?[0])
     }
 
-    /// Expected number of mutations separating the two sampled sequences, E[π], when a link
+    /// Expected number of mutations separating the two sampled sequences, E\[π], when a link
     /// spanning r generations carries ν_r = `rates.per_link(r)` mutations on average.
     ///
-    /// Equals 2 N E[R] E[ν_R]/d (theory reference §3.3).
+    /// Equals 2 N E\[R] E\[ν_R]/d (theory reference §3.3).
     pub fn expected_pairwise_mutations(&self, rates: &MutationRates) -> Result<f64, TheoryError> {
         let nu = |r: u64| if r == 0 { 0.0 } else { rates.per_link(r) };
         Ok(self.expected_reward(|s| nu(s.draws[0]) + nu(s.draws[1]))?[0])

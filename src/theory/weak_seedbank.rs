@@ -1,8 +1,8 @@
 //! Weak seed bank (Kaj, Krone & Lascoux 2001, J. Appl. Probab. 38:285): a look-back law R
-//! fixed as N grows turns the genealogy into Kingman's coalescent slowed down by E[R]²/d.
+//! fixed as N grows turns the genealogy into Kingman's coalescent slowed down by E\[R]²/d.
 //!
 //! Here d is the gcd of the support of R. For two lineages sampled in the same generation
-//! E[T_2] = N E[R]²/d holds exactly for every N (theory reference §3.2, checked against the
+//! E\[T_2] = N E\[R]²/d holds exactly for every N (theory reference §3.2, checked against the
 //! exact chain in [`super::two_lineage`]); for larger samples the time change is the
 //! large-N limit.
 
@@ -49,13 +49,13 @@ impl MutationRates {
         self.per_reproduction + self.per_dormant_generation * r.saturating_sub(1) as f64
     }
 
-    /// E[ν_R] = per_reproduction + per_dormant_generation (E[R] - 1).
+    /// E\[ν_R] = per_reproduction + per_dormant_generation (E\[R] - 1).
     pub fn mean_per_link(&self, mean_lookback: f64) -> f64 {
         self.per_reproduction + self.per_dormant_generation * (mean_lookback - 1.0)
     }
 }
 
-/// (E[R], d) of a stationary law with finite mean.
+/// (E\[R], d) of a stationary law with finite mean.
 fn mean_and_gcd(dormancy: &Dormancy) -> Result<(f64, f64), TheoryError> {
     if dormancy.is_time_dependent() {
         return Err(TheoryError::TimeDependent);
@@ -64,7 +64,7 @@ fn mean_and_gcd(dormancy: &Dormancy) -> Result<(f64, f64), TheoryError> {
     Ok((mean, dormancy.support_gcd() as f64))
 }
 
-/// The KKL time-scale factor E[R]²/d (d = `support_gcd()`).
+/// The KKL time-scale factor E\[R]²/d (d = `support_gcd()`).
 ///
 /// ```text
 /// factor = E[R]² / d
@@ -76,7 +76,7 @@ pub fn time_scale(dormancy: &Dormancy) -> Result<f64, TheoryError> {
     Ok(mean * mean / d)
 }
 
-/// E[T_2] = N E[R]²/d generations, exact for two lineages sampled in the same generation.
+/// E\[T_2] = N E\[R]²/d generations, exact for two lineages sampled in the same generation.
 pub fn pair_time_mean(dormancy: &Dormancy, pop_size: f64) -> Result<f64, TheoryError> {
     check("pop_size", pop_size, "(0, inf)", |x| x > 0.0)?;
     Ok(pop_size * time_scale(dormancy)?)
@@ -93,20 +93,20 @@ pub fn links_per_lineage_mean(dormancy: &Dormancy, pop_size: f64) -> Result<f64,
     Ok(pop_size * mean / d)
 }
 
-/// θ_eff = E[π], the expected pairwise difference under the weak seed bank.
+/// θ_eff = E\[π], the expected pairwise difference under the weak seed bank.
 ///
 /// ```text
 /// E[π] = 2N E[R] E[ν_R] / d,     E[ν_R] = μ_r + μ_d (E[R] - 1)
 /// ```
-/// With μ per generation (μ_r = μ_d = μ) this is θ E[R]²/d with θ = 2Nμ; with mutation
-/// only at reproduction it is θ E[R]/d (theory reference §3.3).
+/// With μ per generation (μ_r = μ_d = μ) this is θ E\[R]²/d with θ = 2Nμ; with mutation
+/// only at reproduction it is θ E\[R]/d (theory reference §3.3).
 pub fn theta_eff(dormancy: &Dormancy, pop_size: f64, rates: &MutationRates) -> Result<f64, TheoryError> {
     check("pop_size", pop_size, "(0, inf)", |x| x > 0.0)?;
     let (mean, d) = mean_and_gcd(dormancy)?;
     Ok(2.0 * pop_size * mean * rates.mean_per_link(mean) / d)
 }
 
-/// Large-N expected unfolded SFS of n sequences: E[ξ_i] = θ_eff / i, i = 1..n-1.
+/// Large-N expected unfolded SFS of n sequences: E\[ξ_i] = θ_eff / i, i = 1..n-1.
 ///
 /// The weak seed bank only changes the time scale, so the Kingman shape is kept
 /// (theory reference §3.3).
@@ -124,7 +124,7 @@ pub(crate) mod tests {
     use super::*;
     use crate::dormancy::{Pareto, SinceFounding, Table, Uniform};
 
-    /// The five bounded laws of theory reference §3.2 with E[R] and exact E[T_2]/N.
+    /// The five bounded laws of theory reference §3.2 with E\[R] and exact E\[T_2]/N.
     pub(crate) fn reference_laws() -> Vec<(Dormancy, f64, f64)> {
         vec![
             (Dormancy::Table(Table::new(&[1.0, 1.0]).unwrap()), 1.5, 2.25),
