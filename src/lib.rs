@@ -31,3 +31,5 @@ pub mod genealogy;
 pub mod notation;
 pub mod report;
 pub mod scenario;
+pub mod stats;
+pub mod theory;
