@@ -379,6 +379,20 @@ mod tests {
     }
 
     #[test]
+    fn mixture_uses_leading_tail() {
+        // Source: theory reference §7.4 law B S = 1.151200874153 (alpha = 0.3). A one-part
+        // mixture is law B, but only the leading tail term is used for it, so the tolerance
+        // is 5e-7 relative: the dropped d-term is a relative ~2 (d/c) L^(alpha-1) ~ 5e-5 of a
+        // ~2e-3 tail.
+        let part = Dormancy::Pareto(Pareto::new(0.3, None).unwrap());
+        let law = Dormancy::Mixture(crate::dormancy::Mixture::new(vec![(1.0, part)]).unwrap());
+        let r = Relatedness::new(&law, LEN).unwrap();
+        assert!(!r.asymptote().is_full());
+        assert!(rel(r.s().value, 1.151200874153) < 5e-7, "S = {}", r.s().value);
+        assert!(r.s().tail > 1e-4 && r.s().tail < 1e-2, "tail {}", r.s().tail);
+    }
+
+    #[test]
     fn forest_meeting_probabilities() {
         // Source: theory reference §4 table, law A: (S-1)/(N+S-1) for N = 10, 100, 1000 and
         // H_10/(N+S-1) for N = 100. Tolerance 1e-8 relative (S - 1 is small for alpha = 0.2).
