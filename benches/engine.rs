@@ -15,7 +15,10 @@ use std::time::Instant;
 
 const CASES: [(&str, &str); 4] = [
     ("none", "demes: [{name: a, size: 2000}]\nsamples: [{deme: a, count: 20}]\n"),
-    ("geometric", "demes: [{name: a, size: 2000, dormancy: {law: geometric, mean: 3.5}}]\nsamples: [{deme: a, count: 20}]\n"),
+    (
+        "geometric",
+        "demes: [{name: a, size: 2000, dormancy: {law: geometric, mean: 3.5}}]\nsamples: [{deme: a, count: 20}]\n",
+    ),
     (
         "pareto_0.7",
         "horizon: 1.0e7\ndemes: [{name: a, size: 100, dormancy: {law: pareto, alpha: 0.7}}]\nsamples: [{deme: a, count: 20}]\n",

@@ -814,3 +814,68 @@ mod tests {
         assert!(close(s.fay_wu_h(), 2.0 * (s.theta_pi() - s.theta_l()), 1e-12));
     }
 }
+
+/// Names of the per-replicate statistic columns, shared by `simulate`, `null` and `observe`:
+///
+/// ```text
+/// segregating_sites pi theta_w tajima_d fay_wu_h fay_wu_h_norm haplotypes
+/// pi_<deme> ... (one per deme)   fst_<a>_<b> ... (one per pair a < b, in deme order)
+/// ```
+pub fn stat_columns(deme_names: &[&str]) -> Vec<String> {
+    let mut cols: Vec<String> =
+        ["segregating_sites", "pi", "theta_w", "tajima_d", "fay_wu_h", "fay_wu_h_norm", "haplotypes"]
+            .iter()
+            .map(|s| s.to_string())
+            .collect();
+    cols.extend(deme_names.iter().map(|d| format!("pi_{d}")));
+    for (a, da) in deme_names.iter().enumerate() {
+        for db in &deme_names[a + 1..] {
+            cols.push(format!("fst_{da}_{db}"));
+        }
+    }
+    cols
+}
+
+impl SampleStats {
+    /// The values of [`stat_columns`] in the same order (`None` where undefined).
+    ///
+    /// `n_demes` must be the number of demes the column names were made for; demes absent
+    /// from the sample give `None`.
+    pub fn column_values(&self, n_demes: usize) -> Vec<Option<f64>> {
+        let mut v = vec![
+            Some(self.segregating_sites as f64),
+            self.theta_pi,
+            self.theta_w,
+            self.tajima_d,
+            self.fay_wu_h,
+            self.normalized_h,
+            Some(self.distinct_haplotypes as f64),
+        ];
+        v.extend((0..n_demes).map(|d| self.deme_pi.get(d).copied().flatten()));
+        for a in 0..n_demes as u32 {
+            for b in a + 1..n_demes as u32 {
+                v.push(self.fst.iter().find(|p| p.deme_a == a && p.deme_b == b).and_then(|p| p.fst));
+            }
+        }
+        v
+    }
+}
+
+#[cfg(test)]
+mod column_tests {
+    use super::*;
+
+    #[test]
+    fn columns_and_values_line_up() {
+        // Two demes, one site carried by samples 0 and 2 (deme 0 = {0,1}, deme 1 = {2,3}):
+        // π = 2·2·2/(4·3) = 4/3 (hand computation), one haplotype pair each.
+        let h = Haplotypes::from_rows(&[[1u8], [0], [1], [0]], vec![0, 0, 1, 1]).unwrap();
+        let s = SampleStats::from_haplotypes(&h);
+        let cols = stat_columns(&["a", "b"]);
+        let vals = s.column_values(2);
+        assert_eq!(cols.len(), vals.len());
+        assert_eq!(cols[1], "pi");
+        assert!((vals[1].unwrap() - 4.0 / 3.0).abs() < 1e-12);
+        assert_eq!(cols.last().unwrap(), "fst_a_b");
+    }
+}

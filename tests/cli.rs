@@ -35,7 +35,8 @@ fn simulate_the_embedded_demo() {
     assert_eq!(lines.count(), 5);
     let trees = std::fs::read_to_string(out.join("trees.nwk")).unwrap();
     assert!(trees.lines().all(|l| l.starts_with("[replicate ") && l.ends_with(';')));
-    let summary: serde_json::Value = serde_json::from_str(&std::fs::read_to_string(out.join("summary.json")).unwrap()).unwrap();
+    let summary: serde_json::Value =
+        serde_json::from_str(&std::fs::read_to_string(out.join("summary.json")).unwrap()).unwrap();
     assert_eq!(summary["seed"], 7);
     assert!(summary["provenance"]["generator"].as_str().unwrap().contains("ChaCha8"));
     let stdout = String::from_utf8_lossy(&o.stdout);
@@ -49,7 +50,17 @@ fn output_is_identical_for_any_thread_count() {
     let d = tempdir("threads");
     let (a, b) = (d.join("a"), d.join("b"));
     for (dir, t) in [(&a, "1"), (&b, "2")] {
-        let o = seedline(&["simulate", "--replicates", "30", "--seed", "5", "--threads", t, "--out", dir.to_str().unwrap()]);
+        let o = seedline(&[
+            "simulate",
+            "--replicates",
+            "30",
+            "--seed",
+            "5",
+            "--threads",
+            t,
+            "--out",
+            dir.to_str().unwrap(),
+        ]);
         assert!(o.status.success());
     }
     for f in ["replicates.tsv", "trees.nwk", "summary.json"] {
@@ -60,7 +71,11 @@ fn output_is_identical_for_any_thread_count() {
 #[test]
 fn bad_input_exits_with_2_and_names_file_key_and_line() {
     let d = tempdir("bad");
-    let p = write(&d, "bad.yaml", "demes:\n  - name: a\n    size: 10\n    dormancy: {law: pareto, alpha: -1}\nsamples: [{deme: a, count: 2}]\n");
+    let p = write(
+        &d,
+        "bad.yaml",
+        "demes:\n  - name: a\n    size: 10\n    dormancy: {law: pareto, alpha: -1}\nsamples: [{deme: a, count: 2}]\n",
+    );
     let o = seedline(&["simulate", &p, "--out", d.join("x").to_str().unwrap()]);
     assert_eq!(o.status.code(), Some(2));
     let err = String::from_utf8_lossy(&o.stderr);

@@ -27,12 +27,7 @@ fn law() -> impl Strategy<Value = String> {
 }
 
 fn scenario() -> impl Strategy<Value = String> {
-    (
-        proptest::collection::vec((1u64..30, law(), 0u64..5, 0u64..4, 0u64..3), 1..4),
-        0.0f64..0.3,
-        0u64..1000,
-        1u64..2000,
-    )
+    (proptest::collection::vec((1u64..30, law(), 0u64..5, 0u64..4, 0u64..3), 1..4), 0.0f64..0.3, 0u64..1000, 1u64..2000)
         .prop_map(|(demes, m, seed, horizon)| {
             let mut y = format!("seed: {seed}\nhorizon: {horizon}\ndemes:\n");
             let mut samples = String::new();
