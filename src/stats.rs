@@ -868,14 +868,14 @@ mod column_tests {
     #[test]
     fn columns_and_values_line_up() {
         // Two demes, one site carried by samples 0 and 2 (deme 0 = {0,1}, deme 1 = {2,3}):
-        // π = 2·2·2/(4·3) = 4/3 (hand computation), one haplotype pair each.
+        // π = 2 c (n - c)/(n (n - 1)) = 2·2·2/(4·3) = 2/3 (hand computation).
         let h = Haplotypes::from_rows(&[[1u8], [0], [1], [0]], vec![0, 0, 1, 1]).unwrap();
         let s = SampleStats::from_haplotypes(&h);
         let cols = stat_columns(&["a", "b"]);
         let vals = s.column_values(2);
         assert_eq!(cols.len(), vals.len());
         assert_eq!(cols[1], "pi");
-        assert!((vals[1].unwrap() - 4.0 / 3.0).abs() < 1e-12);
+        assert!((vals[1].unwrap() - 2.0 / 3.0).abs() < 1e-12);
         assert_eq!(cols.last().unwrap(), "fst_a_b");
     }
 }
