@@ -125,3 +125,83 @@ mod tests {
     /// First u64 of ChaCha8 keyed by seed_from_u64(1), stream 0, as produced by rand 0.10.4.
     const GOLDEN_FIRST_U64: u64 = 7424550030962593201;
 }
+
+/// The random stream of one locus of one replicate: the replicate's stream, moved to word
+/// position `locus * 2^40` (2^40 words per locus is far more than any locus draws), so that
+/// locus 0 is the replicate's stream itself.
+pub fn locus_rng(key: &[u8; 32], replicate: u64, locus: u64) -> ChaCha8Rng {
+    let mut rng = replicate_rng(key, replicate);
+    if locus > 0 {
+        rng.set_word_pos(u128::from(locus) << 40);
+    }
+    rng
+}
+
+/// What to keep of each locus besides its summary.
+#[derive(Debug, Clone, Copy, Default)]
+pub struct Keep {
+    /// Newick text of the genealogy.
+    pub trees: bool,
+    /// Positions and haplotypes of the mutations.
+    pub mutations: bool,
+}
+
+/// The outcome of one locus of one replicate.
+#[derive(Debug, Clone)]
+pub struct LocusOutcome {
+    /// Time of the MRCA, when the genealogy is a tree.
+    pub tmrca: Option<u64>,
+    /// Number of roots.
+    pub roots: usize,
+    /// Sum of branch lengths.
+    pub total_length: u64,
+    /// Lineage steps.
+    pub jumps: u64,
+    /// Statistics of the mutations, when the scenario has a mutation model.
+    pub stats: Option<crate::stats::SampleStats>,
+    /// Newick text, when kept.
+    pub newick: Option<String>,
+    /// Mutations, when kept.
+    pub mutations: Option<crate::mutation::Mutations>,
+}
+
+/// Simulates every locus of one replicate: genealogy, then mutations and statistics, each
+/// locus from its own stream [`locus_rng`]. Loci run in parallel when there are several.
+pub fn simulate_replicate(
+    sim: &mut Simulator,
+    scenario: &Scenario,
+    key: &[u8; 32],
+    replicate: u64,
+    keep: Keep,
+    labels: &[String],
+) -> Result<Vec<LocusOutcome>, crate::mutation::Error> {
+    let one = |sim: &mut Simulator, locus: u64| -> Result<LocusOutcome, crate::mutation::Error> {
+        let mut rng = locus_rng(key, replicate, locus);
+        let g = sim.simulate(scenario, &mut rng);
+        let demes: Vec<u32> = scenario.samples().iter().map(|s| s.deme as u32).collect();
+        let mutations = match scenario.mutation() {
+            Some(m) => Some(crate::mutation::place(&g, m, demes, &mut rng)?),
+            None => None,
+        };
+        let newick = keep.trees.then(|| {
+            let mut s = String::new();
+            g.write_newick(labels, replicate, &mut s);
+            s
+        });
+        Ok(LocusOutcome {
+            tmrca: g.tmrca(),
+            roots: g.roots().len(),
+            total_length: g.total_length(),
+            jumps: g.steps(),
+            stats: mutations.as_ref().map(|m| crate::stats::SampleStats::from_haplotypes(&m.haplotypes)),
+            newick,
+            mutations: if keep.mutations { mutations } else { None },
+        })
+    };
+    let loci = scenario.loci();
+    if loci == 1 {
+        Ok(vec![one(sim, 0)?])
+    } else {
+        (0..loci).into_par_iter().map_init(Simulator::new, |s, locus| one(s, locus)).collect()
+    }
+}

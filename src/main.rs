@@ -11,7 +11,9 @@ const EXAMPLES: &str = "Examples:
   seedline simulate                              run the embedded demo scenario
   seedline simulate scenarios/desert-annual.yaml --replicates 500 --out runs/desert
   seedline simulate scenarios/meadow.yaml --seed 11 --threads 2
-  seedline validate scenarios/lake-sediment.yaml
+  seedline simulate scenarios/lake-resting-eggs.yaml --vcf --diploid
+  seedline predict scenarios/soil-microbe-rare-long.yaml --json
+  seedline validate scenarios/lake-resting-eggs.yaml
 
 Exit codes: 0 success, 2 bad input (scenario or flags), 1 any other failure.";
 
@@ -41,6 +43,24 @@ enum Command {
         /// Output directory
         #[arg(long, default_value = "seedline-out")]
         out: PathBuf,
+        /// Also write vcf/replicate_<i>.vcf (needs a mutation model)
+        #[arg(long)]
+        vcf: bool,
+        /// In the VCF, pair consecutive haplotypes of one deme and time into phased diploids
+        #[arg(long, requires = "vcf")]
+        diploid: bool,
+        /// Also write loci.tsv with one row per locus
+        #[arg(long)]
+        loci_table: bool,
+    },
+    /// Print what published theory predicts for the scenario, and why where nothing applies
+    #[command(after_help = EXAMPLES)]
+    Predict {
+        /// Scenario file (YAML); the embedded demo when omitted
+        scenario: Option<PathBuf>,
+        /// Print JSON instead of text
+        #[arg(long)]
+        json: bool,
     },
     /// Check a scenario file and print it as parsed, without simulating
     #[command(after_help = EXAMPLES)]
@@ -83,7 +103,7 @@ fn is_broken_pipe(e: &anyhow::Error) -> bool {
 
 fn run(cli: Cli) -> Result<()> {
     match cli.command {
-        Command::Simulate { scenario, replicates, seed, threads, out } => {
+        Command::Simulate { scenario, replicates, seed, threads, out, vcf, diploid, loci_table } => {
             let (raw, origin) = load_raw(scenario.as_deref())?;
             let raw = RawScenario { replicates: replicates.or(raw.replicates), seed: seed.or(raw.seed), ..raw };
             let scenario = Scenario::from_raw(raw, &origin)?;
@@ -92,15 +112,28 @@ fn run(cli: Cli) -> Result<()> {
                 &scenario,
                 &origin,
                 BatchConfig { threads, ..BatchConfig::default() },
+                seedline::report::SimulateOptions { vcf, diploid, loci_table },
                 &out,
                 &|| bar.inc(1),
             )?;
             bar.finish_and_clear();
             print!("{}", seedline::report::render_summary(&summary));
-            println!(
-                "wrote {}",
-                seedline::report::SIMULATE_FILES.map(|f| out.join(f).display().to_string()).join(", ")
-            );
+            print!("{}", seedline::report::render_comparison(&summary.comparison));
+            for note in &summary.notes {
+                println!("note: {note}");
+            }
+            println!("wrote results to {}", out.display());
+            Ok(())
+        }
+        Command::Predict { scenario, json } => {
+            let (raw, origin) = load_raw(scenario.as_deref())?;
+            let scenario = Scenario::from_raw(raw, &origin)?;
+            let p = seedline::theory::predict::predict(&scenario);
+            if json {
+                println!("{}", serde_json::to_string_pretty(&p.to_json())?);
+            } else {
+                print!("{}", seedline::report::render_prediction(&scenario, &p));
+            }
             Ok(())
         }
         Command::Validate { scenario } => {

@@ -240,6 +240,13 @@ pub struct SimulationSummary {
     pub forests: u64,
     /// Summaries of the numeric columns of `replicates.tsv`, in column order.
     pub columns: Vec<(String, ColumnSummary)>,
+    /// What published theory predicts for this scenario (the `predict --json` form).
+    pub prediction: serde_json::Value,
+    /// Notes on what the theory covers.
+    #[serde(skip)]
+    pub notes: Vec<String>,
+    /// Simulated means against the predictions.
+    pub comparison: Vec<Comparison>,
 }
 
 /// Accumulates the columns of `replicates.tsv` for the summary.
@@ -302,51 +309,212 @@ pub fn render_summary(summary: &SimulationSummary) -> String {
     s
 }
 
-/// Files written by [`simulate_to_dir`].
+/// Files always written by [`simulate_to_dir`]; `sfs.tsv` joins them with a mutation model,
+/// `loci.tsv` and `vcf/` on request.
 pub const SIMULATE_FILES: [&str; 3] = ["replicates.tsv", "trees.nwk", "summary.json"];
 
-/// Runs every replicate of the scenario and writes `replicates.tsv`, `trees.nwk` and
-/// `summary.json` into `dir` (each atomically). `progress` is called once per replicate.
+/// Optional outputs of `simulate`.
+#[derive(Debug, Clone, Copy, Default)]
+pub struct SimulateOptions {
+    /// Write `vcf/replicate_<i>.vcf` for every replicate.
+    pub vcf: bool,
+    /// Pair consecutive haplotypes into diploid genotypes in the VCF.
+    pub diploid: bool,
+    /// Write `loci.tsv`, one row per locus.
+    pub loci_table: bool,
+}
+
+/// The columns of `replicates.tsv` for a scenario.
+///
+/// Always `replicate tmrca roots total_length jumps`; with a mutation model the statistic
+/// columns of [`crate::stats::stat_columns`]; with several loci also the mean and variance
+/// across loci of π, S and Tajima's D. With several loci `tmrca` and `total_length` are means
+/// over loci (`tmrca` empty if any locus is a forest), `roots` the largest number of roots
+/// and `jumps` the sum.
+pub fn replicate_columns(scenario: &crate::scenario::Scenario) -> Vec<String> {
+    let mut cols: Vec<String> = ReplicateRow::HEADER.iter().map(|s| s.to_string()).collect();
+    if scenario.mutation().is_some() {
+        let names: Vec<&str> = scenario.demes().iter().map(|d| d.name()).collect();
+        cols.extend(crate::stats::stat_columns(&names));
+        if scenario.loci() > 1 {
+            for c in LOCUS_SPREAD {
+                cols.push(format!("{c}_locus_mean"));
+                cols.push(format!("{c}_locus_var"));
+            }
+        }
+    }
+    cols
+}
+
+const LOCUS_SPREAD: [&str; 3] = ["pi", "segregating_sites", "tajima_d"];
+
+fn mean_var(xs: &[f64]) -> (Option<f64>, Option<f64>) {
+    if xs.is_empty() {
+        return (None, None);
+    }
+    let n = xs.len() as f64;
+    let m = xs.iter().sum::<f64>() / n;
+    let v = (xs.len() > 1).then(|| xs.iter().map(|x| (x - m).powi(2)).sum::<f64>() / (n - 1.0));
+    (Some(m), v)
+}
+
+/// The values of [`replicate_columns`] for one replicate's loci.
+pub fn replicate_values(replicate: u64, loci: &[crate::batch::LocusOutcome], n_demes: usize) -> Vec<Option<f64>> {
+    let k = loci.len() as f64;
+    let tmrca: Option<f64> = loci.iter().map(|l| l.tmrca.map(|t| t as f64)).sum::<Option<f64>>().map(|s| s / k);
+    let mut v = vec![
+        Some(replicate as f64),
+        tmrca,
+        loci.iter().map(|l| l.roots).max().map(|r| r as f64),
+        Some(loci.iter().map(|l| l.total_length as f64).sum::<f64>() / k),
+        Some(loci.iter().map(|l| l.jumps as f64).sum()),
+    ];
+    let stats: Vec<crate::stats::SampleStats> = loci.iter().filter_map(|l| l.stats.clone()).collect();
+    if !stats.is_empty() {
+        v.extend(crate::stats::combined_column_values(&stats, n_demes));
+        if loci.len() > 1 {
+            let pick: [&dyn Fn(&crate::stats::SampleStats) -> Option<f64>; 3] =
+                [&|s| s.theta_pi, &|s| Some(s.segregating_sites as f64), &|s| s.tajima_d];
+            for f in pick {
+                let xs: Vec<f64> = stats.iter().filter_map(f).collect();
+                let (m, var) = mean_var(&xs);
+                v.push(m);
+                v.push(var);
+            }
+        }
+    }
+    v
+}
+
+fn tsv_value(x: Option<f64>) -> String {
+    match x {
+        None => String::new(),
+        Some(x) if x.fract() == 0.0 && x.abs() < 9e15 => format!("{}", x as i64),
+        Some(x) => format!("{x}"),
+    }
+}
+
+/// Runs every replicate of the scenario and writes `replicates.tsv`, `trees.nwk`,
+/// `summary.json`, and with a mutation model `sfs.tsv` (plus `loci.tsv` and `vcf/` on
+/// request) into `dir`, each atomically. `progress` is called once per replicate.
 pub fn simulate_to_dir(
     scenario: &crate::scenario::Scenario,
     scenario_file: &str,
     config: crate::batch::BatchConfig,
+    options: SimulateOptions,
     dir: &Path,
     progress: &(dyn Fn() + Sync),
 ) -> anyhow::Result<SimulationSummary> {
     use anyhow::Context;
     fs::create_dir_all(dir).with_context(|| format!("creating output directory {}", dir.display()))?;
     let labels: Vec<String> = scenario.samples().iter().map(|s| s.label.clone()).collect();
+    let n = scenario.samples().len();
+    let n_demes = scenario.demes().len();
+    let mutation = scenario.mutation().is_some();
+    let loci = scenario.loci();
     let reps: Vec<u64> = (0..scenario.replicates()).collect();
+    let columns = replicate_columns(scenario);
     let mut table = StreamFile::create(&dir.join(SIMULATE_FILES[0]))?;
     let mut trees = StreamFile::create(&dir.join(SIMULATE_FILES[1]))?;
-    writeln!(table.out, "{}", ReplicateRow::HEADER.join("\t"))?;
-    let mut acc = ColumnAccumulator::new(&ReplicateRow::HEADER[1..]);
+    writeln!(table.out, "{}", columns.join("\t"))?;
+    let mut sfs = if mutation {
+        let mut f = StreamFile::create(&dir.join("sfs.tsv"))?;
+        let head: Vec<String> =
+            std::iter::once("replicate".to_string()).chain((1..n).map(|i| format!("xi_{i}"))).collect();
+        writeln!(f.out, "{}", head.join("\t"))?;
+        Some(f)
+    } else {
+        None
+    };
+    let mut loci_file = if options.loci_table {
+        let mut f = StreamFile::create(&dir.join("loci.tsv"))?;
+        writeln!(f.out, "replicate\tlocus\ttmrca\troots\ttotal_length\tsegregating_sites\tpi\ttajima_d")?;
+        Some(f)
+    } else {
+        None
+    };
+    let vcf_dir = dir.join("vcf");
+    if options.vcf {
+        anyhow::ensure!(mutation, "--vcf needs a mutation model: add a `mutation:` section to the scenario");
+        crate::vcf_export::columns(scenario.samples(), options.diploid)?;
+        fs::create_dir_all(&vcf_dir).with_context(|| format!("creating {}", vcf_dir.display()))?;
+    }
+    let keep = crate::batch::Keep { trees: true, mutations: options.vcf };
+    let key = crate::batch::master_key(scenario.seed());
+    let mut acc = ColumnAccumulator::new(&columns[1..].iter().map(String::as_str).collect::<Vec<_>>());
+    let mut sfs_acc = vec![Vec::new(); n.saturating_sub(1)];
     let mut forests = 0;
     crate::batch::run(
         scenario,
         &reps,
         config,
-        |sim, sc, rep, rng| {
-            let g = sim.simulate(sc, rng);
-            let mut nwk = String::new();
-            g.write_newick(&labels, rep, &mut nwk);
+        |sim, sc, rep, _| {
+            let r = crate::batch::simulate_replicate(sim, sc, &key, rep, keep, &labels);
             progress();
-            (ReplicateRow::of(rep, &g), nwk)
+            r
         },
-        |_, (row, nwk)| {
-            writeln!(table.out, "{}", row.fields().join("\t"))?;
-            trees.out.write_all(nwk.as_bytes())?;
-            forests += u64::from(row.roots > 1);
-            acc.push(&[
-                row.tmrca.map(|t| t as f64),
-                Some(row.roots as f64),
-                Some(row.total_length as f64),
-                Some(row.jumps as f64),
-            ]);
+        |rep, outcome| {
+            let loci_out = outcome?;
+            let values = replicate_values(rep, &loci_out, n_demes);
+            let fields: Vec<String> = values.iter().map(|x| tsv_value(*x)).collect();
+            writeln!(table.out, "{}", fields.join("\t"))?;
+            for (j, l) in loci_out.iter().enumerate() {
+                if let Some(t) = &l.newick {
+                    if loci > 1 {
+                        trees.out.write_all(
+                            t.replace(&format!("[replicate {rep}"), &format!("[replicate {rep} locus {}", j + 1))
+                                .as_bytes(),
+                        )?;
+                    } else {
+                        trees.out.write_all(t.as_bytes())?;
+                    }
+                }
+                if let Some(f) = loci_file.as_mut() {
+                    let st = l.stats.as_ref();
+                    let row = [
+                        Some(rep as f64),
+                        Some((j + 1) as f64),
+                        l.tmrca.map(|t| t as f64),
+                        Some(l.roots as f64),
+                        Some(l.total_length as f64),
+                        st.map(|s| s.segregating_sites as f64),
+                        st.and_then(|s| s.theta_pi),
+                        st.and_then(|s| s.tajima_d),
+                    ];
+                    writeln!(f.out, "{}", row.iter().map(|x| tsv_value(*x)).collect::<Vec<_>>().join("\t"))?;
+                }
+            }
+            if let Some(f) = sfs.as_mut() {
+                let mut xi = vec![0u64; n.saturating_sub(1)];
+                for st in loci_out.iter().filter_map(|l| l.stats.as_ref()) {
+                    for (a, b) in xi.iter_mut().zip(&st.sfs) {
+                        *a += b;
+                    }
+                }
+                for (col, x) in sfs_acc.iter_mut().zip(&xi) {
+                    col.push(Some(*x as f64));
+                }
+                let fields: Vec<String> =
+                    std::iter::once(rep.to_string()).chain(xi.iter().map(|x| x.to_string())).collect();
+                writeln!(f.out, "{}", fields.join("\t"))?;
+            }
+            if options.vcf {
+                let ms: Vec<&crate::mutation::Mutations> =
+                    loci_out.iter().filter_map(|l| l.mutations.as_ref()).collect();
+                let mut buf = Vec::new();
+                let comment =
+                    format!("seedline {} replicate {rep} seed {}", env!("CARGO_PKG_VERSION"), scenario.seed());
+                crate::vcf_export::write(&mut buf, scenario.samples(), &ms, options.diploid, &comment)?;
+                let p = vcf_dir.join(format!("replicate_{rep}.vcf"));
+                write_atomic(&p, &buf).with_context(|| format!("writing {}", p.display()))?;
+            }
+            forests += u64::from(loci_out.iter().any(|l| l.roots > 1));
+            acc.push(&values[1..]);
             Ok(())
         },
     )?;
+    let prediction = crate::theory::predict::predict(scenario);
+    let sfs_means: Vec<ColumnSummary> = sfs_acc.iter().map(|c| ColumnSummary::new(c)).collect();
     let summary = SimulationSummary {
         provenance: Provenance::current(),
         scenario_file: scenario_file.to_string(),
@@ -355,13 +523,165 @@ pub fn simulate_to_dir(
         replicates: scenario.replicates(),
         forests,
         columns: acc.summaries(),
+        comparison: compare(&acc.summaries(), &sfs_means, &prediction, scenario.replicates()),
+        prediction: prediction.to_json(),
+        notes: prediction.notes.clone(),
     };
     table.finish()?;
     trees.finish()?;
+    if let Some(f) = sfs {
+        f.finish()?;
+    }
+    if let Some(f) = loci_file {
+        f.finish()?;
+    }
     let json = serde_json::to_string_pretty(&summary)?;
     let p = dir.join(SIMULATE_FILES[2]);
     write_atomic(&p, json.as_bytes()).with_context(|| format!("writing {}", p.display()))?;
     Ok(summary)
+}
+
+/// One line of the simulated-versus-predicted table.
+#[derive(Debug, Clone, Serialize)]
+pub struct Comparison {
+    /// Quantity (a column of `replicates.tsv` or `xi_i`).
+    pub quantity: String,
+    /// Simulated mean.
+    pub simulated: Option<f64>,
+    /// 95% interval of the simulated mean.
+    pub interval: Option<(f64, f64)>,
+    /// Predicted value.
+    pub predicted: Option<f64>,
+    /// Source of the prediction, or why none applies.
+    pub source: String,
+    /// `agrees` (within 3 standard errors), `differs`, or `no prediction applies`.
+    pub verdict: String,
+}
+
+fn compare(
+    columns: &[(String, ColumnSummary)],
+    sfs: &[ColumnSummary],
+    pr: &crate::theory::predict::Prediction,
+    replicates: u64,
+) -> Vec<Comparison> {
+    use crate::theory::predict::Predicted;
+    let get = |name: &str| columns.iter().find(|(c, _)| c == name).map(|(_, s)| s.clone());
+    let mut rows = Vec::new();
+    let line = |quantity: String, sim: Option<ColumnSummary>, pred: Option<Predicted>| -> Option<Comparison> {
+        let sim = sim?;
+        let (predicted, source) = match &pred {
+            Some(p) => (Some(p.value), format!("{}{}", p.source, if p.exact { " [exact]" } else { "" })),
+            None => (None, "-".to_string()),
+        };
+        let verdict = match (sim.mean, sim.se, predicted) {
+            (Some(m), Some(se), Some(p)) if se > 0.0 => {
+                if (m - p).abs() <= 3.0 * se { "agrees" } else { "differs" }.to_string()
+            }
+            (Some(m), _, Some(p)) if (m - p).abs() < 1e-9 * p.abs().max(1.0) => "agrees".to_string(),
+            (Some(_), _, Some(_)) => "differs".to_string(),
+            _ => "no prediction applies".to_string(),
+        };
+        Some(Comparison { quantity, simulated: sim.mean, interval: sim.mean_interval(), predicted, source, verdict })
+    };
+    let mut add = |q: String, sim: Option<ColumnSummary>, pred: Option<Predicted>| rows.extend(line(q, sim, pred));
+    add("tmrca".into(), get("tmrca"), pr.tmrca_mean.clone());
+    add("total_length".into(), get("total_length"), pr.total_length_mean.clone());
+    add("segregating_sites".into(), get("segregating_sites"), pr.segregating_sites_mean.clone());
+    add("pi".into(), get("pi"), pr.pi_mean.clone());
+    add("tajima_d".into(), get("tajima_d"), pr.tajima_d_mean.clone());
+    add("haplotypes".into(), get("haplotypes"), pr.haplotypes_mean.clone());
+    if let (Some(p), Some(roots)) = (&pr.pair_meet_probability, get("roots")) {
+        // A sample of two: one root means the lineages met, so P(met) = 2 - E[roots].
+        let met = ColumnSummary { mean: roots.mean.map(|m| 2.0 - m), quantiles: None, ..roots };
+        let source = format!("{} (the horizon can only lower the simulated value)", p.source);
+        add("pair met (2 - roots)".into(), Some(met), Some(Predicted { source, ..p.clone() }));
+    }
+    if let Some(exp) = &pr.sfs_expected {
+        for (i, (s, e)) in sfs.iter().zip(exp).enumerate().take(5) {
+            add(
+                format!("xi_{}", i + 1),
+                Some(s.clone()),
+                Some(Predicted { value: *e, source: pr.sfs_source.clone().unwrap_or_default(), exact: false }),
+            );
+        }
+    }
+    let _ = replicates;
+    rows
+}
+
+/// Renders a prediction for the terminal.
+pub fn render_prediction(scenario: &crate::scenario::Scenario, p: &crate::theory::predict::Prediction) -> String {
+    let mut s = format!(
+        "predictions for {:?} ({} sampled, {} loci)\n",
+        scenario.name(),
+        scenario.samples().len(),
+        scenario.loci()
+    );
+    if let Some(r) = &p.regime {
+        s.push_str(&format!("regime of the look-back law: {r}\n"));
+    }
+    let items = [
+        ("E[T_2] (pair)", &p.pair_time_mean),
+        ("E[T_MRCA]", &p.tmrca_mean),
+        ("E[total length]", &p.total_length_mean),
+        ("E[S]", &p.segregating_sites_mean),
+        ("Var[S] (one locus)", &p.segregating_sites_var),
+        ("E[pi]", &p.pi_mean),
+        ("E[Tajima's D]", &p.tajima_d_mean),
+        ("E[haplotypes]", &p.haplotypes_mean),
+        ("P(pair ever meets)", &p.pair_meet_probability),
+    ];
+    for (name, v) in items {
+        match v {
+            Some(v) => s.push_str(&format!(
+                "{name:<20} {:>14}  {}{}\n",
+                fmt_num(v.value),
+                v.source,
+                if v.exact { " [exact]" } else { "" }
+            )),
+            None => s.push_str(&format!("{name:<20} {:>14}\n", "-")),
+        }
+    }
+    if let Some(sfs) = &p.sfs_expected {
+        let head: Vec<String> = sfs.iter().take(8).map(|x| fmt_num(*x)).collect();
+        s.push_str(&format!(
+            "E[xi_1..]            {}{}  {}\n",
+            head.join(" "),
+            if sfs.len() > 8 { " ..." } else { "" },
+            p.sfs_source.as_deref().unwrap_or("")
+        ));
+    }
+    for (a, b, t) in &p.deme_pair_times {
+        s.push_str(&format!("E[T] pair {a}-{b}: {}\n", fmt_num(*t)));
+    }
+    for (a, b, f) in &p.fst {
+        s.push_str(&format!("F_ST {a}-{b} (ratio of expectations): {}\n", fmt_num(*f)));
+    }
+    for n in &p.notes {
+        s.push_str(&format!("note: {n}\n"));
+    }
+    s
+}
+
+/// Renders the simulated-versus-predicted table for the terminal.
+pub fn render_comparison(rows: &[Comparison]) -> String {
+    if rows.is_empty() {
+        return String::new();
+    }
+    let mut s = String::from(
+        "\nsimulated against theory (95% interval of the simulated mean; agrees = within 3 standard errors)\n",
+    );
+    s.push_str(&format!(
+        "{:<20} {:>12} {:>27} {:>12}  {:<22} {}\n",
+        "quantity", "simulated", "95% interval", "predicted", "verdict", "source"
+    ));
+    for r in rows {
+        let sim = r.simulated.map_or("-".to_string(), fmt_num);
+        let ci = r.interval.map_or("-".to_string(), |(a, b)| format!("[{}, {}]", fmt_num(a), fmt_num(b)));
+        let pred = r.predicted.map_or("-".to_string(), fmt_num);
+        s.push_str(&format!("{:<20} {sim:>12} {ci:>27} {pred:>12}  {:<22} {}\n", r.quantity, r.verdict, r.source));
+    }
+    s
 }
 
 /// A file streamed to a temporary name and renamed over the final name by [`finish`];

@@ -879,3 +879,63 @@ mod column_tests {
         assert_eq!(cols.last().unwrap(), "fst_a_b");
     }
 }
+
+impl Haplotypes {
+    /// Appends a site given as a bitset over samples (`ceil(n/64)` words, bit s = sample s).
+    pub fn push_site_bits(&mut self, column: &[u64]) {
+        debug_assert_eq!(column.len(), self.words);
+        self.bits.extend_from_slice(column);
+        self.sites += 1;
+    }
+
+    /// The bitset of one site (bit s set when sample s carries the derived allele).
+    pub fn site_bits(&self, site: usize) -> &[u64] {
+        self.column(site)
+    }
+}
+
+/// Statistic column values of several unlinked loci taken together, aligned with
+/// [`stat_columns`].
+///
+/// SFS-based statistics come from the summed SFS (S, π, θ_H, θ_L and the per-deme π add up
+/// over loci; θ_W, Tajima's D and normalised H are computed from the sums), F_ST is the
+/// ratio of sums 1 - Σ H_w / Σ H_b (Hudson, Slatkin & Maddison 1992, applied genome-wide),
+/// and `haplotypes` is the mean number of distinct haplotypes per locus.
+pub fn combined_column_values(loci: &[SampleStats], n_demes: usize) -> Vec<Option<f64>> {
+    let Some(first) = loci.first() else { return Vec::new() };
+    if loci.len() == 1 {
+        return first.column_values(n_demes);
+    }
+    let n = first.n;
+    let s: u64 = loci.iter().map(|l| l.segregating_sites).sum();
+    let sum_opt = |f: &dyn Fn(&SampleStats) -> Option<f64>| -> Option<f64> { loci.iter().map(f).sum() };
+    let pi = sum_opt(&|l| l.theta_pi);
+    let theta_h = sum_opt(&|l| l.theta_h);
+    let theta_l = sum_opt(&|l| l.theta_l);
+    let a_n = harmonic(n);
+    let mut v = vec![
+        Some(s as f64),
+        pi,
+        (n >= 2).then(|| s as f64 / a_n),
+        pi.and_then(|p| tajima_d(n, s, p)),
+        pi.zip(theta_h).map(|(p, h)| p - h),
+        pi.zip(theta_l).and_then(|(p, l)| normalized_fay_wu_h(n, s, p, l)),
+        Some(loci.iter().map(|l| l.distinct_haplotypes as f64).sum::<f64>() / loci.len() as f64),
+    ];
+    let deme_pi: Vec<Option<f64>> =
+        (0..n_demes).map(|d| loci.iter().map(|l| l.deme_pi.get(d).copied().flatten()).sum()).collect();
+    v.extend(deme_pi.iter().copied());
+    for a in 0..n_demes {
+        for b in a + 1..n_demes {
+            let between: Option<f64> = loci
+                .iter()
+                .map(|l| {
+                    l.fst.iter().find(|p| p.deme_a as usize == a && p.deme_b as usize == b).and_then(|p| p.between)
+                })
+                .sum();
+            let within = deme_pi[a].zip(deme_pi[b]).map(|(x, y)| (x + y) / 2.0);
+            v.push(within.zip(between).and_then(|(w, hb)| (hb > 0.0).then(|| 1.0 - w / hb)));
+        }
+    }
+    v
+}

@@ -13,6 +13,7 @@ pub use raw::RawScenario;
 
 use crate::demography::{Migration, SizeEpoch, SizeHistory};
 use crate::dormancy::{self, Dormancy, SeedAge};
+use crate::mutation::MutationModel;
 use raw::{RawDeme, RawDormancy, RawMigration, RawSample, RawSize};
 use serde_saphyr::Spanned;
 use std::fmt;
@@ -27,6 +28,8 @@ pub const DEFAULT_HORIZON: u64 = 1_000_000_000;
 pub const MAX_HORIZON: u64 = 1_000_000_000_000_000;
 /// Largest number of demes.
 pub const MAX_DEMES: usize = 1000;
+/// Largest number of unlinked loci per replicate.
+pub const MAX_LOCI: u64 = 1_000_000;
 /// Largest total sample size.
 pub const MAX_SAMPLES: usize = 1 << 24;
 
@@ -139,6 +142,8 @@ pub struct Scenario {
     samples: Vec<SampledIndividual>,
     /// Seed-age samplers, one per seed-bank sample group: (deme, time) -> sampler.
     seed_ages: Vec<((usize, u64), SeedAge)>,
+    mutation: Option<MutationModel>,
+    loci: u64,
     normalized: RawScenario,
 }
 
@@ -196,6 +201,14 @@ impl Scenario {
     pub fn seed_age(&self, deme: usize, time: u64) -> Option<&SeedAge> {
         let key = if self.demes[deme].dormancy.is_time_dependent() { time } else { 0 };
         self.seed_ages.iter().find(|(k, _)| *k == (deme, key)).map(|(_, s)| s)
+    }
+    /// The mutation model, when the scenario has one.
+    pub fn mutation(&self) -> Option<&MutationModel> {
+        self.mutation.as_ref()
+    }
+    /// Independent loci per replicate.
+    pub fn loci(&self) -> u64 {
+        self.loci
     }
     /// The scenario as parsed, with defaults filled in (for reports).
     pub fn normalized(&self) -> &RawScenario {
@@ -268,6 +281,15 @@ impl Validator {
         let names: Vec<&str> = raw.demes.iter().map(|d| d.value.name.as_str()).collect();
         let migration = self.migration(&raw.migration, &names);
         let (samples, seed_ages) = self.samples(&raw.samples, &names, &demes, horizon);
+        let mutation = raw.mutation.as_ref().and_then(|m| self.mutation(m));
+        let loci = match &raw.loci {
+            Some(l) if l.value == 0 || l.value > MAX_LOCI => {
+                self.err("loci", line_of(l), format!("{} is not allowed: loci must be in 1..={MAX_LOCI}", l.value));
+                1
+            }
+            Some(l) => l.value,
+            None => 1,
+        };
         if !self.issues.is_empty() {
             return None;
         }
@@ -285,8 +307,41 @@ impl Validator {
             migration: migration?,
             samples,
             seed_ages,
+            mutation,
+            loci,
             normalized,
         })
+    }
+
+    fn mutation(&mut self, m: &Spanned<raw::RawMutation>) -> Option<MutationModel> {
+        let line = line_of(m);
+        let r = &m.value;
+        let sites = self.whole("mutation.sites", line, r.sites, 1.0, 1.0e12);
+        let rate = |v: &mut Self, key: &str, x: Option<f64>| -> Option<f64> {
+            match x {
+                Some(x) if x.is_finite() && (0.0..=1.0).contains(&x) => Some(x),
+                Some(x) => {
+                    v.err(
+                        format!("mutation.{key}"),
+                        line,
+                        format!("{x} is not a rate per site per generation in [0, 1]"),
+                    );
+                    None
+                }
+                None => None,
+            }
+        };
+        let base = rate(self, "rate", r.rate);
+        let repro = rate(self, "reproduction_rate", r.reproduction_rate);
+        let dormant = rate(self, "dormant_rate", r.dormant_rate);
+        if r.rate.is_none() && r.reproduction_rate.is_none() && r.dormant_rate.is_none() {
+            self.err("mutation", line, "give `rate`, or `reproduction_rate` and `dormant_rate`");
+            return None;
+        }
+        let pick = |specific: Option<f64>, given: bool| if given { specific } else { base.or(Some(0.0)) };
+        let repro = pick(repro, r.reproduction_rate.is_some())?;
+        let dormant = pick(dormant, r.dormant_rate.is_some())?;
+        Some(MutationModel::new(sites?, repro, dormant))
     }
 
     fn deme(&mut self, path: &str, d: &Spanned<RawDeme>) -> Option<Deme> {

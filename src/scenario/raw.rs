@@ -31,6 +31,29 @@ pub struct RawScenario {
     /// Sample groups.
     #[serde(default)]
     pub samples: Vec<Spanned<RawSample>>,
+    /// Infinite-sites mutation; no mutations when absent.
+    #[serde(default, skip_serializing_if = "Option::is_none")]
+    pub mutation: Option<Spanned<RawMutation>>,
+    /// Independent (unlinked) loci per replicate (default 1).
+    #[serde(default, skip_serializing_if = "Option::is_none")]
+    pub loci: Option<Spanned<u64>>,
+}
+
+/// Mutation rates per site per generation, and the sequence length.
+#[derive(Debug, Clone, Deserialize, Serialize)]
+#[serde(deny_unknown_fields)]
+pub struct RawMutation {
+    /// Rate in every generation, dormant ones included.
+    #[serde(default, skip_serializing_if = "Option::is_none")]
+    pub rate: Option<f64>,
+    /// Sites per locus.
+    pub sites: f64,
+    /// Rate in the generation of reproduction (overrides `rate`).
+    #[serde(default, skip_serializing_if = "Option::is_none")]
+    pub reproduction_rate: Option<f64>,
+    /// Rate in each dormant generation (overrides `rate`).
+    #[serde(default, skip_serializing_if = "Option::is_none")]
+    pub dormant_rate: Option<f64>,
 }
 
 /// One deme.

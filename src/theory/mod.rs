@@ -10,6 +10,7 @@ pub mod error;
 mod linalg;
 
 pub mod kingman;
+pub mod predict;
 pub mod relatedness;
 pub mod renewal;
 pub mod seedbank_coalescent;

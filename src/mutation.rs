@@ -1,0 +1,190 @@
+//! Infinite-sites mutations on the branches of a genealogy.
+//!
+//! An edge of L generations with J reproduction events (lineage jumps) receives
+//!
+//! ```text
+//! K ~ Poisson(sites * (reproduction_rate * J + dormant_rate * (L - J)))
+//! ```
+//! mutations: each link of a lineage is one generation of reproduction followed by R - 1
+//! dormant generations. With only `rate` given both rates are equal, so the clock runs
+//! through dormancy. Every mutation hits a new site (infinite sites; Kimura 1969): positions
+//! are distinct, drawn uniformly without replacement from 1..=sites (1-based, as in VCF).
+//! The derived allele is carried by every sample below the edge, the child itself included
+//! when it is a sampled individual. In a forest only edges inside trees carry mutations:
+//! the lineage above a root has no defined length, so fixed differences between trees are
+//! not counted.
+
+use crate::genealogy::Genealogy;
+use crate::stats::Haplotypes;
+use rand::Rng;
+use rand::seq::SliceRandom;
+use rand_distr::{Distribution, Poisson};
+
+/// Mutation rates per site per generation, and the number of sites of a locus.
+#[derive(Debug, Clone, Copy, PartialEq, serde::Serialize)]
+pub struct MutationModel {
+    sites: u64,
+    reproduction_rate: f64,
+    dormant_rate: f64,
+}
+
+impl MutationModel {
+    /// A model; rates are per site per generation (checked by the scenario parser).
+    pub fn new(sites: u64, reproduction_rate: f64, dormant_rate: f64) -> Self {
+        MutationModel { sites, reproduction_rate, dormant_rate }
+    }
+    /// Sites per locus.
+    pub fn sites(&self) -> u64 {
+        self.sites
+    }
+    /// Rate per site in a generation of reproduction.
+    pub fn reproduction_rate(&self) -> f64 {
+        self.reproduction_rate
+    }
+    /// Rate per site in a dormant generation.
+    pub fn dormant_rate(&self) -> f64 {
+        self.dormant_rate
+    }
+    /// Expected mutations (whole sequence) on an edge of `length` generations with `jumps`
+    /// reproduction events.
+    pub fn edge_mean(&self, length: u64, jumps: u64) -> f64 {
+        self.sites as f64 * (self.reproduction_rate * jumps as f64 + self.dormant_rate * (length - jumps) as f64)
+    }
+}
+
+/// Why mutations could not be placed.
+#[derive(Debug, Clone, PartialEq, Eq, thiserror::Error)]
+#[non_exhaustive]
+pub enum Error {
+    /// More mutations than sites: infinite sites cannot hold.
+    #[error(
+        "{mutations} mutations fell on a locus of {sites} sites: the infinite-sites model needs many more sites than mutations (raise mutation.sites or lower the rate)"
+    )]
+    TooManyMutations {
+        /// Mutations drawn.
+        mutations: u64,
+        /// Sites available.
+        sites: u64,
+    },
+}
+
+/// The mutations of one locus: sorted 1-based positions and the haplotype matrix.
+#[derive(Debug, Clone)]
+pub struct Mutations {
+    /// Positions, 1-based, strictly increasing; one per site of `haplotypes`.
+    pub positions: Vec<u64>,
+    /// Samples × sites, 1 = derived.
+    pub haplotypes: Haplotypes,
+}
+
+/// Places infinite-sites mutations on the edges of `g`; `demes[s]` labels sample s.
+pub fn place<R: Rng + ?Sized>(
+    g: &Genealogy,
+    model: &MutationModel,
+    demes: Vec<u32>,
+    rng: &mut R,
+) -> Result<Mutations, Error> {
+    let graph = g.graph();
+    let n = g.n_samples();
+    let words = n.div_ceil(64);
+    // Draw the number of mutations of every edge first, so carriers are only computed for
+    // edges that need them.
+    let mut hits: Vec<(usize, u64)> = Vec::new();
+    let mut total = 0u64;
+    for e in graph.edge_indices() {
+        let w = graph[e];
+        let mean = model.edge_mean(w.length, w.jumps);
+        if mean > 0.0 {
+            let k = Poisson::new(mean).map_or(0.0, |p| p.sample(rng)) as u64;
+            if k > 0 {
+                let (_, child) = graph.edge_endpoints(e).expect("edge exists");
+                hits.push((child.index(), k));
+                total += k;
+            }
+        }
+    }
+    if total > model.sites {
+        return Err(Error::TooManyMutations { mutations: total, sites: model.sites });
+    }
+    let mut haplotypes = Haplotypes::new(demes);
+    if total == 0 {
+        return Ok(Mutations { positions: Vec::new(), haplotypes });
+    }
+    // Sample bitsets below each node, children before parents.
+    let mut below = vec![0u64; graph.node_count() * words];
+    for v in g.postorder() {
+        let i = v.index();
+        if let Some(s) = graph[v].sample {
+            below[i * words + s as usize / 64] |= 1 << (s % 64);
+        }
+        for (c, _) in g.children(v) {
+            for w in 0..words {
+                below[i * words + w] |= below[c.index() * words + w];
+            }
+        }
+    }
+    let mut positions: Vec<u64> =
+        rand::seq::index::sample(rng, model.sites as usize, total as usize).into_iter().map(|p| p as u64 + 1).collect();
+    // Positions are assigned to mutations at random, then the sites are listed in position order.
+    positions.shuffle(rng);
+    let mut sites: Vec<(u64, usize)> = Vec::with_capacity(total as usize);
+    let mut next = positions.into_iter();
+    for &(child, k) in &hits {
+        for _ in 0..k {
+            sites.push((next.next().expect("one position per mutation"), child));
+        }
+    }
+    sites.sort_unstable();
+    for &(_, child) in &sites {
+        haplotypes.push_site_bits(&below[child * words..(child + 1) * words]);
+    }
+    Ok(Mutations { positions: sites.into_iter().map(|(p, _)| p).collect(), haplotypes })
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+    use crate::batch::{master_key, replicate_rng};
+    use crate::scenario::Scenario;
+
+    #[test]
+    fn sites_are_distinct_sorted_and_carried_below_their_edge() {
+        let s = Scenario::from_yaml_str(
+            "demes: [{name: a, size: 50, dormancy: {law: geometric, mean: 2}}]\nsamples: [{deme: a, count: 6}]\nmutation: {rate: 1.0e-4, sites: 1000}\n",
+            "t",
+        )
+        .unwrap();
+        let key = master_key(3);
+        let g = crate::engine::simulate(&s, &mut replicate_rng(&key, 0));
+        let m = place(&g, s.mutation().unwrap(), vec![0; 6], &mut replicate_rng(&key, 1)).unwrap();
+        assert!(m.positions.windows(2).all(|w| w[0] < w[1]));
+        assert!(m.positions.iter().all(|&p| (1..=1000).contains(&p)));
+        assert_eq!(m.positions.len(), m.haplotypes.sites());
+        for site in 0..m.haplotypes.sites() {
+            let c = m.haplotypes.derived_count(site);
+            assert!(c >= 1 && c <= 5, "a mutation inside a tree is carried by 1..n-1 samples");
+        }
+    }
+
+    #[test]
+    fn too_many_mutations_is_an_error() {
+        let s = Scenario::from_yaml_str(
+            "demes: [{name: a, size: 500}]\nsamples: [{deme: a, count: 10}]\nmutation: {rate: 0.01, sites: 5}\n",
+            "t",
+        )
+        .unwrap();
+        let key = master_key(3);
+        let g = crate::engine::simulate(&s, &mut replicate_rng(&key, 0));
+        assert!(matches!(
+            place(&g, s.mutation().unwrap(), vec![0; 10], &mut replicate_rng(&key, 1)),
+            Err(Error::TooManyMutations { .. })
+        ));
+    }
+
+    #[test]
+    fn dormant_generations_use_the_dormant_rate() {
+        // An edge of 10 generations with 3 jumps: 3 reproduction and 7 dormant generations.
+        let m = MutationModel::new(100, 1e-3, 1e-4);
+        assert!((m.edge_mean(10, 3) - 100.0 * (3e-3 + 7e-4)).abs() < 1e-12);
+    }
+}

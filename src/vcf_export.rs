@@ -1,0 +1,122 @@
+//! VCF export of simulated haplotypes (the writer side of VCF; reading is in `observed`).
+//!
+//! One file per replicate, VCF 4.3 written with noodles. Loci are separate contigs
+//! `locus_1`, `locus_2`, ... with positions 1..=sites each. Every site is a biallelic SNP
+//! with REF = A (ancestral, also given as INFO AA) and ALT = T (derived): infinite sites
+//! knows no bases, so the letters are placeholders. Genotypes are haploid (`0`/`1`), or,
+//! with diploid pairing, phased pairs of consecutive haplotypes (`0|1`) of one deme and time.
+//! Sample names show deme, index and time: `north_3_t0`, `south_2_t300`, `north_7_t0_seed`
+//! (a seed from the bank); paired: `north_0+1_t0`.
+
+use crate::mutation::Mutations;
+use crate::scenario::{SampleKind, SampledIndividual};
+use noodles::vcf::{
+    self,
+    header::record::value::{
+        Map,
+        map::{Contig, Format, Info},
+    },
+    variant::io::Write as _,
+    variant::record_buf::{
+        AlternateBases, Filters, Info as InfoBuf, Samples, info::field::Value as InfoValue, samples::Keys,
+        samples::sample::Value,
+    },
+};
+use std::io::{self, Write};
+
+/// Why a VCF could not be written.
+#[derive(Debug, thiserror::Error)]
+#[non_exhaustive]
+pub enum Error {
+    /// Diploid pairing needs an even number of haplotypes per deme and time.
+    #[error("diploid pairing needs consecutive samples of one deme and time in pairs: {label} has no partner")]
+    Unpaired {
+        /// The sample left alone.
+        label: String,
+    },
+    /// Writing failed.
+    #[error(transparent)]
+    Io(#[from] io::Error),
+}
+
+fn vcf_name(s: &SampledIndividual) -> String {
+    let seed = if s.kind == SampleKind::Seedbank { "_seed" } else { "" };
+    format!("{}_t{}{seed}", s.label, s.time)
+}
+
+/// The columns of the VCF: each entry lists the sample indices of one VCF sample.
+pub fn columns(samples: &[SampledIndividual], diploid: bool) -> Result<Vec<(String, Vec<usize>)>, Error> {
+    if !diploid {
+        return Ok(samples.iter().enumerate().map(|(i, s)| (vcf_name(s), vec![i])).collect());
+    }
+    let mut out = Vec::new();
+    let mut i = 0;
+    while i < samples.len() {
+        let a = &samples[i];
+        match samples.get(i + 1) {
+            Some(b) if b.deme == a.deme && b.time == a.time && b.kind == a.kind => {
+                let idx = b.label.rsplit('_').next().unwrap_or("");
+                out.push((format!("{}+{idx}_t{}", a.label, a.time), vec![i, i + 1]));
+                i += 2;
+            }
+            _ => return Err(Error::Unpaired { label: vcf_name(a) }),
+        }
+    }
+    Ok(out)
+}
+
+/// Writes one replicate's loci as VCF 4.3 into `out`.
+pub fn write<W: Write>(
+    out: W,
+    samples: &[SampledIndividual],
+    loci: &[&Mutations],
+    diploid: bool,
+    comment: &str,
+) -> Result<(), Error> {
+    let cols = columns(samples, diploid)?;
+    let mut builder = vcf::Header::builder()
+        .set_file_format(vcf::header::FileFormat::new(4, 3))
+        .add_info("AA", Map::<Info>::from("AA"))
+        .add_format("GT", Map::<Format>::from("GT"))
+        .insert("source".parse().expect("a valid key"), vcf::header::record::Value::String(comment.to_string()))
+        .map_err(|e| io::Error::new(io::ErrorKind::InvalidInput, e))?;
+    for l in 0..loci.len() {
+        builder = builder.add_contig(format!("locus_{}", l + 1), Map::<Contig>::new());
+    }
+    for (name, _) in &cols {
+        builder = builder.add_sample_name(name.clone());
+    }
+    let header = builder.build();
+    let mut writer = vcf::io::Writer::new(out);
+    writer.write_header(&header)?;
+    let keys: Keys = ["GT".to_string()].into_iter().collect();
+    for (l, m) in loci.iter().enumerate() {
+        let contig = format!("locus_{}", l + 1);
+        for (site, &pos) in m.positions.iter().enumerate() {
+            let values: Vec<Vec<Option<Value>>> = cols
+                .iter()
+                .map(|(_, idx)| {
+                    let gt: Vec<&str> =
+                        idx.iter().map(|&s| if m.haplotypes.get(s, site) { "1" } else { "0" }).collect();
+                    let gt = gt.join("|");
+                    vec![Some(Value::Genotype(gt.parse().expect("a genotype of 0 and 1 alleles")))]
+                })
+                .collect();
+            let info: InfoBuf = [("AA".to_string(), Some(InfoValue::String("A".to_string())))].into_iter().collect();
+            let record = vcf::variant::RecordBuf::builder()
+                .set_reference_sequence_name(contig.clone())
+                .set_variant_start(
+                    noodles::core::Position::try_from(pos as usize)
+                        .map_err(|e| io::Error::new(io::ErrorKind::InvalidInput, e))?,
+                )
+                .set_reference_bases("A")
+                .set_alternate_bases(AlternateBases::from(vec!["T".to_string()]))
+                .set_filters(Filters::pass())
+                .set_info(info)
+                .set_samples(Samples::new(keys.clone(), values))
+                .build();
+            writer.write_variant_record(&header, &record)?;
+        }
+    }
+    Ok(())
+}
