@@ -104,3 +104,58 @@ fn help_shows_examples() {
     assert!(o.status.success());
     assert!(String::from_utf8_lossy(&o.stdout).contains("Examples:"));
 }
+
+#[test]
+fn vcf_read_back_with_noodles_gives_the_same_sfs() {
+    use noodles::vcf;
+    use noodles::vcf::variant::record::samples::Series as _;
+    use noodles::vcf::variant::record::samples::series::Value;
+    let d = tempdir("vcf");
+    let scenario = write(
+        &d,
+        "s.yaml",
+        "seed: 3\nreplicates: 3\ndemes: [{name: a, size: 300, dormancy: {law: uniform, max: 3}}, {name: b, size: 200}]\nmigration: [{from: a, to: b, rate: 0.01}, {from: b, to: a, rate: 0.01}]\nsamples: [{deme: a, count: 4}, {deme: b, count: 4, generations_ago: 20}]\nmutation: {rate: 1.0e-6, sites: 20000}\n",
+    );
+    let out = d.join("run");
+    let o = seedline(&["simulate", &scenario, "--vcf", "--diploid", "--out", out.to_str().unwrap()]);
+    assert!(o.status.success(), "{}", String::from_utf8_lossy(&o.stderr));
+    let sfs = std::fs::read_to_string(out.join("sfs.tsv")).unwrap();
+    for (rep, line) in sfs.lines().skip(1).enumerate() {
+        let expected: Vec<u64> = line.split('\t').skip(1).map(|x| x.parse().unwrap()).collect();
+        let mut reader =
+            vcf::io::reader::Builder::default().build_from_path(out.join(format!("vcf/replicate_{rep}.vcf"))).unwrap();
+        let header = reader.read_header().unwrap();
+        assert_eq!(header.sample_names().len(), 4, "8 haplotypes paired into 4 diploids");
+        let mut xi = vec![0u64; 7];
+        for rec in reader.records() {
+            let rec = rec.unwrap();
+            let samples = rec.samples();
+            let gt = samples.select("GT").unwrap();
+            let mut derived = 0;
+            for v in gt.iter(&header) {
+                if let Some(Value::Genotype(g)) = v.unwrap() {
+                    for allele in g.iter() {
+                        let (pos, _) = allele.unwrap();
+                        derived += usize::from(pos == Some(1));
+                    }
+                }
+            }
+            xi[derived - 1] += 1;
+        }
+        assert_eq!(xi, expected, "replicate {rep}");
+    }
+}
+
+#[test]
+fn predict_prints_json_with_the_fixed_keys() {
+    let o =
+        seedline(&["predict", concat!(env!("CARGO_MANIFEST_DIR"), "/scenarios/no-dormancy-baseline.yaml"), "--json"]);
+    assert!(o.status.success());
+    let v: serde_json::Value = serde_json::from_slice(&o.stdout).unwrap();
+    for k in ["pair_time_mean", "tmrca_mean", "sfs_expected", "segregating_sites_mean", "pi_mean", "notes"] {
+        assert!(v.get(k).is_some(), "missing {k}");
+    }
+    // Source: Kingman (1982) / exact discrete chain: E[T_2] = N = 1000 generations.
+    assert_eq!(v["pair_time_mean"], 1000.0);
+    assert_eq!(v["sfs_expected"].as_array().unwrap().len(), 19);
+}
