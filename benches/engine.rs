@@ -117,6 +117,35 @@ fn ratios() {
     let _ = ChaCha8Rng::seed_from_u64(0).next_u64();
 }
 
+/// Share of a replicate's time spent outside the engine (mutation placement and statistics)
+/// for n = 100, one deme, geometric dormancy.
+fn outside_engine_share() {
+    let s = scenario(
+        "demes: [{name: a, size: 10000, dormancy: {law: geometric, mean: 2}}]\nsamples: [{deme: a, count: 100}]\nmutation: {rate: 1.0e-8, sites: 100000}\n",
+    );
+    let key = master_key(3);
+    let labels: Vec<String> = s.samples().iter().map(|x| x.label.clone()).collect();
+    let mut sim = Simulator::new();
+    let (mut engine, mut total) = (Vec::new(), Vec::new());
+    for round in 0..7u64 {
+        let t0 = Instant::now();
+        for rep in 0..40 {
+            black_box(sim.simulate(&s, &mut replicate_rng(&key, round * 1000 + rep)).steps());
+        }
+        engine.push(t0.elapsed().as_secs_f64());
+        let t1 = Instant::now();
+        for rep in 0..40 {
+            let keep = seedline::batch::Keep::default();
+            black_box(seedline::batch::simulate_replicate(&mut sim, &s, &key, round * 1000 + rep, keep, &labels).unwrap());
+        }
+        total.push(t1.elapsed().as_secs_f64());
+    }
+    engine.sort_by(f64::total_cmp);
+    total.sort_by(f64::total_cmp);
+    let (e, t) = (engine[3], total[3]);
+    println!("\nn = 100, N = 10^4, geometric mean 2, theta ~ 8: engine {:.4} s, replicate with mutations and statistics {:.4} s per 40 replicates; share outside the engine {:.1}%", e, t, 100.0 * (t - e) / t);
+}
+
 criterion_group!(benches, bench_engine);
 
 fn main() {
@@ -126,4 +155,5 @@ fn main() {
         Criterion::default().configure_from_args().final_summary();
     }
     ratios();
+    outside_engine_share();
 }

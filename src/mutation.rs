@@ -56,6 +56,12 @@ impl MutationModel {
 #[derive(Debug, Clone, PartialEq, Eq, thiserror::Error)]
 #[non_exhaustive]
 pub enum Error {
+    /// A fixed number of mutations was asked for a genealogy without branch length.
+    #[error("{mutations} mutations cannot be placed: the genealogy has no branch with a positive mutation rate")]
+    NoBranchLength {
+        /// Mutations asked for.
+        mutations: u64,
+    },
     /// More mutations than sites: infinite sites cannot hold.
     #[error(
         "{mutations} mutations fell on a locus of {sites} sites: the infinite-sites model needs many more sites than mutations (raise mutation.sites or lower the rate)"
@@ -84,6 +90,29 @@ pub fn place<R: Rng + ?Sized>(
     demes: Vec<u32>,
     rng: &mut R,
 ) -> Result<Mutations, Error> {
+    place_with(g, model, Count::Poisson, demes, rng)
+}
+
+/// How many mutations a locus receives.
+#[derive(Debug, Clone, Copy, PartialEq, Eq)]
+pub enum Count {
+    /// Poisson on every edge with the model's rates (the model itself).
+    Poisson,
+    /// Exactly this many, each on an edge chosen with probability proportional to the edge's
+    /// expected number of mutations: the genealogy is not conditioned, only the count is
+    /// fixed ("fixed S", Hudson 1993, common practice for tests given an observed S; it
+    /// ignores that S carries information on the genealogy, Markovtsova et al. 2001).
+    Fixed(u64),
+}
+
+/// Places mutations as [`place`] does, with the number of mutations chosen by `count`.
+pub fn place_with<R: Rng + ?Sized>(
+    g: &Genealogy,
+    model: &MutationModel,
+    count: Count,
+    demes: Vec<u32>,
+    rng: &mut R,
+) -> Result<Mutations, Error> {
     let graph = g.graph();
     let n = g.n_samples();
     let words = n.div_ceil(64);
@@ -91,17 +120,38 @@ pub fn place<R: Rng + ?Sized>(
     // edges that need them.
     let mut hits: Vec<(usize, u64)> = Vec::new();
     let mut total = 0u64;
-    for e in graph.edge_indices() {
-        let w = graph[e];
-        let mean = model.edge_mean(w.length, w.jumps);
-        if mean > 0.0 {
-            let k = Poisson::new(mean).map_or(0.0, |p| p.sample(rng)) as u64;
-            if k > 0 {
-                let (_, child) = graph.edge_endpoints(e).expect("edge exists");
-                hits.push((child.index(), k));
-                total += k;
+    let child_of = |e| graph.edge_endpoints(e).expect("edge exists").1.index();
+    match count {
+        Count::Poisson => {
+            for e in graph.edge_indices() {
+                let w = graph[e];
+                let mean = model.edge_mean(w.length, w.jumps);
+                if mean > 0.0 {
+                    let k = Poisson::new(mean).map_or(0.0, |p| p.sample(rng)) as u64;
+                    if k > 0 {
+                        hits.push((child_of(e), k));
+                        total += k;
+                    }
+                }
             }
         }
+        Count::Fixed(k) if k > 0 => {
+            let edges: Vec<_> = graph.edge_indices().collect();
+            let weights: Vec<f64> = edges.iter().map(|&e| model.edge_mean(graph[e].length, graph[e].jumps)).collect();
+            let pick = rand_distr::weighted::WeightedAliasIndex::new(weights)
+                .map_err(|_| Error::NoBranchLength { mutations: k })?;
+            let mut per_edge = vec![0u64; edges.len()];
+            for _ in 0..k {
+                per_edge[pick.sample(rng)] += 1;
+            }
+            for (e, c) in edges.iter().zip(per_edge) {
+                if c > 0 {
+                    hits.push((child_of(*e), c));
+                }
+            }
+            total = k;
+        }
+        Count::Fixed(_) => {}
     }
     if total > model.sites {
         return Err(Error::TooManyMutations { mutations: total, sites: model.sites });
@@ -179,6 +229,19 @@ mod tests {
             place(&g, s.mutation().unwrap(), vec![0; 10], &mut replicate_rng(&key, 1)),
             Err(Error::TooManyMutations { .. })
         ));
+    }
+
+    #[test]
+    fn fixed_count_places_exactly_that_many() {
+        let s = Scenario::from_yaml_str(
+            "demes: [{name: a, size: 50}]\nsamples: [{deme: a, count: 5}]\nmutation: {rate: 1.0e-6, sites: 1000}\n",
+            "t",
+        )
+        .unwrap();
+        let key = master_key(3);
+        let g = crate::engine::simulate(&s, &mut replicate_rng(&key, 0));
+        let m = place_with(&g, s.mutation().unwrap(), Count::Fixed(17), vec![0; 5], &mut replicate_rng(&key, 1)).unwrap();
+        assert_eq!(m.positions.len(), 17);
     }
 
     #[test]
