@@ -29,6 +29,7 @@ pub mod dormancy;
 pub mod engine;
 pub mod genealogy;
 pub mod notation;
+pub mod observed;
 pub mod report;
 pub mod scenario;
 pub mod stats;
