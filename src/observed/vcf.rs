@@ -100,7 +100,7 @@ pub enum FieldError {
 
 /// A field error with the column (and sample) it concerns.
 #[derive(Debug, Clone, PartialEq, Eq, thiserror::Error)]
-#[error("column {column}{}", sample.as_ref().map(|s| format!(", sample {s}")).unwrap_or_default())]
+#[error("{}", where_(column, sample.as_deref()))]
 pub struct RecordError {
     /// Column name: `POS`, `REF`, `ALT`, `FILTER`, `INFO`, `FORMAT`, `GT`, or `columns`
     /// for a wrong column count.
@@ -110,6 +110,15 @@ pub struct RecordError {
     /// What is wrong.
     #[source]
     pub kind: FieldError,
+}
+
+/// "column GT, sample s2", or "column count" for a line with the wrong number of columns.
+fn where_(column: &str, sample: Option<&str>) -> String {
+    match (column, sample) {
+        ("columns", _) => "column count".to_string(),
+        (c, Some(s)) => format!("column {c}, sample {s}"),
+        (c, None) => format!("column {c}"),
+    }
 }
 
 impl RecordError {
