@@ -5,6 +5,8 @@
 //! simulated ones.
 //!
 //! **Sequences.** Each haploid genome counts as one sequence: a diploid `0/1` gives two.
+//! A sample's ploidy is the map's `ploidy` or else the number of alleles in its first GT;
+//! every later GT must have as many (a lone `.` is a missing call of any ploidy).
 //! Samples are taken from the sample map ([`map`]); VCF samples absent from the map are
 //! skipped (and counted); a map sample absent from the VCF is an error.
 //!
@@ -297,6 +299,7 @@ struct Accumulator {
     within: Vec<f64>,
     between: Vec<f64>,
     deme_gaps: u64,
+    deme_sizes: Vec<u32>,
     haplotypes: Option<Haplotypes>,
     unphased: bool,
 }
@@ -555,7 +558,12 @@ impl Accumulator {
         let labels: Vec<u32> =
             mapped.iter().flat_map(|s| std::iter::repeat_n(s.deme as u32, s.ploidy.unwrap_or(0) as usize)).collect();
         let n = labels.len() as u32;
+        let mut deme_sizes = vec![0u32; demes];
+        for &d in &labels {
+            deme_sizes[d as usize] += 1;
+        }
         Accumulator {
+            deme_sizes,
             projector: Projector::new(m),
             polarised: vec![0.0; m as usize + 1],
             unpolarised: vec![0.0; m as usize + 1],
@@ -576,7 +584,8 @@ impl Accumulator {
             let (ma, ca) = (f64::from(m[a]), f64::from(c[a]));
             if m[a] >= 2 {
                 self.within[a] += 2.0 * ca * (ma - ca) / (ma * (ma - 1.0));
-            } else {
+            } else if self.deme_sizes[a] >= 2 {
+                // Only a gap when missing calls, not the deme's size, left fewer than 2.
                 self.deme_gaps += 1;
             }
             for b in a + 1..d {
