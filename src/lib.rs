@@ -30,6 +30,7 @@ pub mod engine;
 pub mod genealogy;
 pub mod mutation;
 pub mod notation;
+pub mod observed;
 pub mod report;
 pub mod scenario;
 pub mod stats;

@@ -62,6 +62,23 @@ enum Command {
         #[arg(long)]
         json: bool,
     },
+    /// Summary statistics of observed data (VCF of biallelic SNPs) with the simulate columns
+    Observe {
+        /// VCF file, plain or bgzip-compressed (.vcf.gz)
+        data: PathBuf,
+        /// Sample map (TSV with columns sample, deme, optional generations_ago, ploidy)
+        #[arg(long)]
+        samples: PathBuf,
+        /// Output directory for observed.json, observed.tsv, sfs.tsv
+        #[arg(long, default_value = "seedline-observed")]
+        out: PathBuf,
+        /// Project every site with at least M called sequences to M (hypergeometric)
+        #[arg(long, value_name = "M", conflicts_with = "drop_missing")]
+        project: Option<u32>,
+        /// Use only sites called in every sequence
+        #[arg(long)]
+        drop_missing: bool,
+    },
     /// Check a scenario file and print it as parsed, without simulating
     #[command(after_help = EXAMPLES)]
     Validate {
@@ -91,7 +108,9 @@ fn main() -> ExitCode {
                 return ExitCode::SUCCESS;
             }
             eprintln!("error: {e:#}");
-            let bad_input = e.chain().any(|c| c.is::<BadInput>() || c.is::<scenario::Error>());
+            let bad_input = e
+                .chain()
+                .any(|c| c.is::<BadInput>() || c.is::<scenario::Error>() || c.is::<seedline::observed::Error>());
             ExitCode::from(if bad_input { 2 } else { 1 })
         }
     }
@@ -134,6 +153,23 @@ fn run(cli: Cli) -> Result<()> {
             } else {
                 print!("{}", seedline::report::render_prediction(&scenario, &p));
             }
+            Ok(())
+        }
+        Command::Observe { data, samples, out, project, drop_missing } => {
+            use seedline::observed::{self, Missing};
+            let missing = match (project, drop_missing) {
+                (Some(m), _) => Missing::Project(m),
+                (None, true) => Missing::Drop,
+                (None, false) => Missing::Refuse,
+            };
+            let obs = observed::observe_files(&data, &samples, missing)?;
+            observed::write_outputs(&obs, &out).with_context(|| format!("writing into {}", out.display()))?;
+            let wrote = observed::OBSERVE_FILES.map(|f| out.join(f).display().to_string()).join(", ");
+            // Through write_all so that a closed pipe is an error, not a panic.
+            std::io::Write::write_all(
+                &mut std::io::stdout(),
+                format!("{}wrote {wrote}\n", observed::render(&obs)).as_bytes(),
+            )?;
             Ok(())
         }
         Command::Validate { scenario } => {
