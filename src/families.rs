@@ -986,7 +986,10 @@ pub fn render_summary(report: &FamiliesReport) -> String {
         Some(f) => {
             let ci =
                 f.h_ci95.map_or("no interval".to_string(), |[a, b]| format!("95% [{}, {}]", fmt_num(a), fmt_num(b)));
-            let pred = report.predicted_h.map_or("none".to_string(), |h| format!("alpha + 1/2 = {}", fmt_num(h)));
+            let mut pred = report.predicted_h.map_or("none".to_string(), |h| format!("alpha + 1/2 = {}", fmt_num(h)));
+            if let Some(e) = f.exact_two_h {
+                let _ = write!(pred, " (exact Var on this grid: {})", fmt_num(e / 2.0));
+            }
             let _ = writeln!(
                 s,
                 "H from Var(S_m), m in [{}, {}]: {} ({ci}); predicted {pred}",
