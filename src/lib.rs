@@ -27,6 +27,7 @@ pub mod batch;
 pub mod demography;
 pub mod dormancy;
 pub mod engine;
+pub mod families;
 pub mod genealogy;
 pub mod mutation;
 pub mod notation;

@@ -79,6 +79,28 @@ enum Command {
         #[arg(long)]
         drop_missing: bool,
     },
+    /// Families of a block sample (one individual per generation): relatedness by lag, MRCA depth,
+    /// coloured-family sums; writes families.tsv, family_sizes.tsv, relatedness.tsv, mrca_depth.tsv,
+    /// coloured.tsv, families.json (try scenarios/single-lineage-block.yaml)
+    Families {
+        /// Scenario file (YAML) whose sample is a block
+        scenario: PathBuf,
+        /// Number of replicates (overrides the file)
+        #[arg(long)]
+        replicates: Option<u64>,
+        /// Master seed (overrides the file)
+        #[arg(long)]
+        seed: Option<u64>,
+        /// Worker threads (0 = one per core)
+        #[arg(long, default_value_t = 0)]
+        threads: usize,
+        /// Output directory
+        #[arg(long, default_value = "seedline-families")]
+        out: PathBuf,
+        /// Law of the family types: pm1 (±1) or normal
+        #[arg(long, default_value = "pm1", value_parser = ["pm1", "normal"])]
+        colours: String,
+    },
     /// Check a scenario file and print it as parsed, without simulating
     #[command(after_help = EXAMPLES)]
     Validate {
@@ -170,6 +192,24 @@ fn run(cli: Cli) -> Result<()> {
                 &mut std::io::stdout(),
                 format!("{}wrote {wrote}\n", observed::render(&obs)).as_bytes(),
             )?;
+            Ok(())
+        }
+        Command::Families { scenario, replicates, seed, threads, out, colours } => {
+            use seedline::families::{self, Colours, Options};
+            let (raw, origin) = load_raw(Some(&scenario))?;
+            let raw = RawScenario { replicates: replicates.or(raw.replicates), seed: seed.or(raw.seed), ..raw };
+            let scenario = Scenario::from_raw(raw, &origin)?;
+            let colours = if colours == "normal" { Colours::Normal } else { Colours::Pm1 };
+            let bar = progress_bar(scenario.replicates());
+            let config = BatchConfig { threads, ..BatchConfig::default() };
+            let report = families::run(&scenario, &origin, config, &Options { colours, ..Options::default() }, &|| {
+                bar.inc(1)
+            })
+            .map_err(|e| if e.is_bad_input() { anyhow::Error::new(BadInput(e.to_string())) } else { e.into() })?;
+            bar.finish_and_clear();
+            families::write_to_dir(&report, &out)?;
+            print!("{}", families::render_summary(&report));
+            println!("wrote {}", families::FILES.map(|f| out.join(f).display().to_string()).join(", "));
             Ok(())
         }
         Command::Validate { scenario } => {
