@@ -31,6 +31,7 @@ pub mod families;
 pub mod genealogy;
 pub mod mutation;
 pub mod notation;
+pub mod null;
 pub mod observed;
 pub mod report;
 pub mod scenario;

@@ -386,7 +386,8 @@ pub fn replicate_values(replicate: u64, loci: &[crate::batch::LocusOutcome], n_d
     v
 }
 
-fn tsv_value(x: Option<f64>) -> String {
+/// A TSV cell: empty for `None`, integers without a fraction.
+pub fn tsv_value(x: Option<f64>) -> String {
     match x {
         None => String::new(),
         Some(x) if x.fract() == 0.0 && x.abs() < 9e15 => format!("{}", x as i64),

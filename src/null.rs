@@ -1,0 +1,325 @@
+//! Null distributions in bulk: many replicates of a scenario's statistics, streamed to disk
+//! in chunks, resumable, splittable into shards and mergeable.
+//!
+//! A run in `DIR` writes `null.json` (the manifest: scenario, seed, replicates, shard,
+//! chunk size, columns) and `chunk_000000.tsv`, `chunk_000001.tsv`, ... Each chunk holds
+//! `chunk` consecutive replicates of the shard, one row each: the columns of
+//! `replicates.tsv` (see [`crate::report::replicate_columns`]) followed by the summed SFS
+//! `xi_1..xi_{n-1}`. A chunk is written to a temporary name and renamed when complete, so
+//! the directory only ever holds complete chunks under their final names; a rerun of the
+//! same command skips every complete chunk (resume) and refuses a directory made with other
+//! settings. Replicate i always uses the stream of (seed, i): `--shard I/K` runs the
+//! replicates with i mod K == I, and [`merge`] of the K shards gives the same `null.tsv`,
+//! byte for byte, as the merge of one unsharded run.
+
+use crate::batch::{self, BatchConfig, Keep};
+use crate::mutation::Count;
+use crate::report::{StreamFile, replicate_columns, replicate_values, write_atomic};
+use crate::scenario::Scenario;
+use anyhow::{Context, Result, bail, ensure};
+use serde::{Deserialize, Serialize};
+use std::fs;
+use std::io::Write;
+use std::path::{Path, PathBuf};
+
+/// The manifest `null.json` of a null run.
+#[derive(Debug, Clone, PartialEq, Serialize, Deserialize)]
+pub struct Manifest {
+    /// seedline version.
+    pub seedline: String,
+    /// Random generator.
+    pub generator: String,
+    /// The validated scenario (after `--like`), as JSON.
+    pub scenario: serde_json::Value,
+    /// Master seed.
+    pub seed: u64,
+    /// Total replicates B over all shards.
+    pub replicates: u64,
+    /// This shard's index I.
+    pub shard: u64,
+    /// Number of shards K.
+    pub shards: u64,
+    /// Replicates per chunk file.
+    pub chunk: u64,
+    /// Mutation count: `poisson` or `fixed S`.
+    pub mutations: String,
+    /// Column names of every row.
+    pub columns: Vec<String>,
+}
+
+/// Settings of a null run.
+#[derive(Debug, Clone, Copy)]
+pub struct NullConfig {
+    /// Total replicates B.
+    pub replicates: u64,
+    /// This shard I of K.
+    pub shard: (u64, u64),
+    /// Replicates per chunk.
+    pub chunk: u64,
+    /// Poisson mutations or a fixed number.
+    pub count: Count,
+    /// Stop after this many new chunks (for time-limited slots); the rest is done by a rerun.
+    pub max_new_chunks: Option<u64>,
+}
+
+/// What a run did.
+#[derive(Debug, Clone, Serialize)]
+pub struct NullReport {
+    /// Chunks found complete and skipped.
+    pub resumed_chunks: u64,
+    /// Chunks written now.
+    pub written_chunks: u64,
+    /// Chunks of the shard in all.
+    pub total_chunks: u64,
+    /// Replicates of this shard.
+    pub shard_replicates: u64,
+}
+
+/// Parses `I/K`.
+pub fn parse_shard(s: &str) -> Result<(u64, u64)> {
+    let (i, k) = s.split_once('/').with_context(|| format!("--shard {s}: expected I/K, e.g. 0/4"))?;
+    let (i, k): (u64, u64) = (i.trim().parse()?, k.trim().parse()?);
+    ensure!(k >= 1 && i < k, "--shard {s}: needs K >= 1 and 0 <= I < K");
+    Ok((i, k))
+}
+
+fn chunk_name(c: u64) -> String {
+    format!("chunk_{c:06}.tsv")
+}
+
+/// Runs (or resumes) a null run of `scenario` in `dir`. `progress(done)` is called with the
+/// number of replicates of the shard completed so far.
+pub fn run(
+    scenario: &Scenario,
+    cfg: NullConfig,
+    batch_config: BatchConfig,
+    dir: &Path,
+    progress: &(dyn Fn(u64) + Sync),
+) -> Result<NullReport> {
+    ensure!(scenario.mutation().is_some(), "a null distribution needs a mutation model: add `mutation:` to the scenario");
+    ensure!(cfg.chunk >= 1, "--chunk must be at least 1");
+    let n = scenario.samples().len();
+    let mut columns = replicate_columns(scenario);
+    columns.extend((1..n).map(|i| format!("xi_{i}")));
+    let manifest = Manifest {
+        seedline: env!("CARGO_PKG_VERSION").to_string(),
+        generator: batch::GENERATOR.to_string(),
+        scenario: serde_json::to_value(scenario.normalized())?,
+        seed: scenario.seed(),
+        replicates: cfg.replicates,
+        shard: cfg.shard.0,
+        shards: cfg.shard.1,
+        chunk: cfg.chunk,
+        mutations: match cfg.count {
+            Count::Poisson => "poisson".to_string(),
+            Count::Fixed(s) => format!("fixed {s}"),
+        },
+        columns: columns.clone(),
+    };
+    fs::create_dir_all(dir).with_context(|| format!("creating {}", dir.display()))?;
+    let mpath = dir.join("null.json");
+    if mpath.exists() {
+        let old: Manifest = serde_json::from_str(&fs::read_to_string(&mpath)?)
+            .with_context(|| format!("reading {}", mpath.display()))?;
+        if old != manifest {
+            bail!(
+                "{} holds a null run with other settings (scenario, seed, replicates, shard, chunk or mutations differ): use another --out",
+                dir.display()
+            );
+        }
+    } else {
+        write_atomic(&mpath, serde_json::to_string_pretty(&manifest)?.as_bytes())?;
+    }
+    // Temporary files of an interrupted run are incomplete by construction.
+    for e in fs::read_dir(dir)? {
+        let name = e?.file_name().to_string_lossy().into_owned();
+        if name.starts_with(".chunk_") && name.ends_with(".tmp") {
+            let _ = fs::remove_file(dir.join(name));
+        }
+    }
+    let (shard, shards) = cfg.shard;
+    let reps: Vec<u64> = (0..cfg.replicates).filter(|i| i % shards == shard).collect();
+    let key = batch::master_key(scenario.seed());
+    let labels: Vec<String> = scenario.samples().iter().map(|s| s.label.clone()).collect();
+    let n_demes = scenario.demes().len();
+    let total_chunks = (reps.len() as u64).div_ceil(cfg.chunk);
+    let mut report = NullReport { resumed_chunks: 0, written_chunks: 0, total_chunks, shard_replicates: reps.len() as u64 };
+    let done = std::sync::atomic::AtomicU64::new(0);
+    for (c, chunk) in reps.chunks(cfg.chunk as usize).enumerate() {
+        let path = dir.join(chunk_name(c as u64));
+        if path.exists() {
+            report.resumed_chunks += 1;
+            done.fetch_add(chunk.len() as u64, std::sync::atomic::Ordering::Relaxed);
+            progress(done.load(std::sync::atomic::Ordering::Relaxed));
+            continue;
+        }
+        if cfg.max_new_chunks.is_some_and(|m| report.written_chunks >= m) {
+            break;
+        }
+        let mut f = StreamFile::create(&path)?;
+        writeln!(f.out, "{}", columns.join("\t"))?;
+        batch::run(
+            scenario,
+            chunk,
+            batch_config,
+            |sim, sc, rep, _| {
+                let r = replicate_with(sim, sc, &key, rep, cfg.count, &labels);
+                progress(done.fetch_add(1, std::sync::atomic::Ordering::Relaxed) + 1);
+                r
+            },
+            |rep, loci| {
+                let loci = loci?;
+                let mut values = replicate_values(rep, &loci, n_demes);
+                let mut xi = vec![0u64; n.saturating_sub(1)];
+                for st in loci.iter().filter_map(|l| l.stats.as_ref()) {
+                    for (a, b) in xi.iter_mut().zip(&st.sfs) {
+                        *a += b;
+                    }
+                }
+                values.extend(xi.iter().map(|x| Some(*x as f64)));
+                let fields: Vec<String> = values.iter().map(|x| crate::report::tsv_value(*x)).collect();
+                writeln!(f.out, "{}", fields.join("\t"))?;
+                Ok(())
+            },
+        )?;
+        f.finish().with_context(|| format!("writing {}", path.display()))?;
+        report.written_chunks += 1;
+    }
+    Ok(report)
+}
+
+/// One replicate with the chosen mutation count (Poisson: as `simulate`).
+fn replicate_with(
+    sim: &mut crate::engine::Simulator,
+    sc: &Scenario,
+    key: &[u8; 32],
+    rep: u64,
+    count: Count,
+    labels: &[String],
+) -> Result<Vec<batch::LocusOutcome>, crate::mutation::Error> {
+    match count {
+        Count::Poisson => batch::simulate_replicate(sim, sc, key, rep, Keep::default(), labels),
+        Count::Fixed(s) => {
+            // The fixed count applies to the whole replicate: one locus only.
+            let mut rng = batch::locus_rng(key, rep, 0);
+            let g = sim.simulate(sc, &mut rng);
+            let demes: Vec<u32> = sc.samples().iter().map(|x| x.deme as u32).collect();
+            let model = sc.mutation().expect("checked by run");
+            let m = crate::mutation::place_with(&g, model, Count::Fixed(s), demes, &mut rng)?;
+            Ok(vec![batch::LocusOutcome {
+                tmrca: g.tmrca(),
+                roots: g.roots().len(),
+                total_length: g.total_length(),
+                jumps: g.steps(),
+                stats: Some(crate::stats::SampleStats::from_haplotypes(&m.haplotypes)),
+                newick: None,
+                mutations: None,
+            }])
+        }
+    }
+}
+
+/// Rows of a null distribution: column names and one row of values per replicate, sorted
+/// by replicate.
+#[derive(Debug, Clone)]
+pub struct NullTable {
+    /// Column names (the first is `replicate`).
+    pub columns: Vec<String>,
+    /// Rows as text fields, sorted by replicate.
+    pub rows: Vec<(u64, Vec<String>)>,
+    /// The manifest of the (first) run.
+    pub manifest: Manifest,
+}
+
+impl NullTable {
+    /// The values of one column (`None` for empty cells).
+    pub fn column(&self, name: &str) -> Option<Vec<Option<f64>>> {
+        let j = self.columns.iter().position(|c| c == name)?;
+        Some(self.rows.iter().map(|(_, r)| r[j].parse().ok()).collect())
+    }
+}
+
+fn read_rows(path: &Path, columns: &[String], rows: &mut Vec<(u64, Vec<String>)>) -> Result<()> {
+    let text = fs::read_to_string(path).with_context(|| format!("reading {}", path.display()))?;
+    let mut lines = text.lines();
+    let head: Vec<String> = lines.next().unwrap_or("").split('\t').map(String::from).collect();
+    ensure!(head == columns, "{}: columns differ from the manifest's", path.display());
+    for (i, line) in lines.enumerate() {
+        let fields: Vec<String> = line.split('\t').map(String::from).collect();
+        ensure!(fields.len() == columns.len(), "{}, line {}: {} fields, expected {}", path.display(), i + 2, fields.len(), columns.len());
+        let rep: u64 = fields[0].parse().with_context(|| format!("{}, line {}: column replicate", path.display(), i + 2))?;
+        rows.push((rep, fields));
+    }
+    Ok(())
+}
+
+fn manifest_of(dir: &Path) -> Result<Manifest> {
+    let p = dir.join("null.json");
+    let text = fs::read_to_string(&p).with_context(|| format!("{} is not a null run directory (no null.json)", dir.display()))?;
+    serde_json::from_str(&text).with_context(|| format!("reading {}", p.display()))
+}
+
+/// Loads a null distribution from a run directory: its merged `null.tsv` when present,
+/// otherwise its chunk files.
+pub fn load(dir: &Path) -> Result<NullTable> {
+    let manifest = manifest_of(dir)?;
+    let mut rows = Vec::new();
+    let merged = dir.join("null.tsv");
+    if merged.exists() {
+        read_rows(&merged, &manifest.columns, &mut rows)?;
+    } else {
+        for p in chunk_files(dir)? {
+            read_rows(&p, &manifest.columns, &mut rows)?;
+        }
+    }
+    rows.sort_by_key(|r| r.0);
+    Ok(NullTable { columns: manifest.columns.clone(), rows, manifest })
+}
+
+fn chunk_files(dir: &Path) -> Result<Vec<PathBuf>> {
+    let mut v: Vec<PathBuf> = fs::read_dir(dir)?
+        .filter_map(|e| e.ok().map(|e| e.path()))
+        .filter(|p| p.file_name().is_some_and(|n| n.to_string_lossy().starts_with("chunk_")))
+        .collect();
+    v.sort();
+    Ok(v)
+}
+
+/// Merges shard directories into `out/null.tsv` (rows sorted by replicate) and
+/// `out/null.json`. The shards must come from the same scenario, seed, replicates and
+/// mutation setting, and together hold every replicate exactly once.
+pub fn merge(dirs: &[PathBuf], out: &Path) -> Result<u64> {
+    ensure!(!dirs.is_empty(), "merge needs at least one run directory");
+    let first = manifest_of(&dirs[0])?;
+    let mut rows = Vec::new();
+    for d in dirs {
+        let m = manifest_of(d)?;
+        let same = m.scenario == first.scenario
+            && m.seed == first.seed
+            && m.replicates == first.replicates
+            && m.mutations == first.mutations
+            && m.columns == first.columns;
+        ensure!(same, "{} was made with other settings than {}: shards must share scenario, seed, replicates and mutations", d.display(), dirs[0].display());
+        let t = load(d)?;
+        rows.extend(t.rows);
+    }
+    rows.sort_by_key(|r| r.0);
+    for w in rows.windows(2) {
+        ensure!(w[0].0 != w[1].0, "replicate {} appears twice: the same shard was given twice", w[0].0);
+    }
+    let have = rows.len() as u64;
+    if have != first.replicates {
+        bail!("the runs hold {have} of {} replicates: some shard is missing or unfinished (rerun it to resume)", first.replicates);
+    }
+    fs::create_dir_all(out)?;
+    let mut text = first.columns.join("\t");
+    text.push('\n');
+    for (_, r) in &rows {
+        text.push_str(&r.join("\t"));
+        text.push('\n');
+    }
+    write_atomic(&out.join("null.tsv"), text.as_bytes())?;
+    let merged = Manifest { shard: 0, shards: 1, chunk: first.replicates.max(1), ..first };
+    write_atomic(&out.join("null.json"), serde_json::to_string_pretty(&merged)?.as_bytes())?;
+    Ok(have)
+}
