@@ -47,11 +47,12 @@ fn r2_from_counts(n: usize, na: usize, nb: usize, nab: usize) -> Option<f64> {
 
 /// Mean r² of all pairs of polymorphic sites, binned by distance |x_j - x_i|.
 ///
-/// `positions[s]` is the position of site s; `haplotypes[h][s]` the allele (0/1; non-zero is
-/// 1) of haplotype h at site s. `bins` are increasing bin edges: bin k holds distances in
-/// `[bins[k], bins[k+1])`; pairs outside every bin, and pairs with a monomorphic site, are
-/// skipped. One entry per bin, in order; empty bins have `mean_r2 = NaN` and `pairs = 0`.
-/// Cost O(S² n / 64) for S sites and n haplotypes (sites are packed into bit sets).
+/// `positions[s]` is the position of site s; `haplotypes[h][s]` is the allele of haplotype h
+/// at site s (0 or 1; any non-zero value counts as 1). `bins` are increasing bin edges: bin
+/// k holds distances in `[bins[k], bins[k+1])`; pairs outside every bin, and pairs with a
+/// monomorphic site, are skipped. One entry per bin, in order; empty bins have
+/// `mean_r2 = NaN` and `pairs = 0`. Cost O(S² n / 64) for S sites and n haplotypes (sites
+/// are packed into bit sets).
 ///
 /// Panics when a haplotype's length differs from `positions.len()` or the edges are not
 /// increasing.
