@@ -123,7 +123,7 @@ fn two_site_pair_times_have_the_two_locus_covariance() {
     // lineage per unit is N c = rho/2, rho = 2 N c. The test standardises with the exact
     // discrete moments E[T_2] = N, Var[T_2] = N(N - 1) (theory reference §1) and checks the mean
     // of the standardised product; the discrete model differs from the limit by O(1/N) and
-    // O(c) = 0.004, below the 4 se tolerance (about 0.03; rho = 3 or 5 would give 0.29 or
+    // O(c) = 0.004, below the 4 se tolerance (about 0.03; rho = 3 or 5 would give 0.32 or
     // 0.21, outside it).
     let n_pop = 500.0;
     let rho: f64 = 4.0;

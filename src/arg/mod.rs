@@ -34,6 +34,20 @@
 //! marginal tree of the left site of a gap. With r = 0 no extra random number is drawn and the
 //! engine consumes the stream exactly as [`crate::engine::Simulator`] does, so the single local
 //! tree is the engine's genealogy, replicate by replicate.
+//!
+//! ```
+//! use seedline::arg::{ArgConfig, ArgSimulator};
+//! use seedline::{batch, scenario::Scenario};
+//! let yaml = "demes: [{name: pond, size: 200, dormancy: {law: geometric, mean: 2}}]\n\
+//!             samples: [{deme: pond, count: 4}]\n";
+//! let scenario = Scenario::from_yaml_str(yaml, "inline").unwrap();
+//! // rho = 2 N r (L - 1) = 2 * 200 * 1e-4 * 99 ~ 4 (per unit of N generations, before dormancy).
+//! let config = ArgConfig::new(100, 1e-4).unwrap();
+//! let mut rng = batch::replicate_rng(&batch::master_key(scenario.seed()), 0);
+//! let arg = ArgSimulator::new().simulate(&scenario, &config, &mut rng);
+//! assert_eq!(arg.trees().len(), arg.breakpoints() + 1);
+//! assert!(arg.trees().iter().all(|t| t.genealogy().is_tree()));
+//! ```
 
 mod ld;
 mod trees;
