@@ -176,7 +176,9 @@ impl Arg {
     /// ```
     /// where J is the number of reproduction events (jumps) on the genealogy of one site, whose
     /// law is the engine's. This is the quantity of Hudson & Kaplan (1985): rho a_n in the
-    /// coalescent limit without dormancy.
+    /// coalescent limit without dormancy. Reproductions whose parents would lie beyond the
+    /// horizon are not drawn (the lineage stops there), so with a finite horizon J counts the
+    /// jumps that stay inside it.
     pub fn tree_crossovers(&self) -> u64 {
         self.tree_crossovers
     }
