@@ -1,0 +1,747 @@
+//! Recombination within a locus: the exact discrete ancestral recombination graph.
+//!
+//! The model is the engine's ([`crate::engine`]) with a sequence of L sites (0..L-1, L-1
+//! gaps between them). A new individual of deme d at time t draws R from its deme's dormancy
+//! law; its sequence is a mosaic of **two** parents drawn independently (each with its own
+//! migration draw and its own uniform choice among the N_e(t + R) individuals of generation
+//! t + R; the same R for both, since the seed was made in one generation). Crossovers fall as
+//! a Poisson process along the sequence at rate r per gap; the segments alternate between
+//! the two parents, starting from a random one. Dormant generations add no crossovers.
+//!
+//! ```text
+//! gap g lies between sites g-1 and g (g = 1..L-1); crossovers in gap g ~ Poisson(r), independent
+//! sites g-1 and g come from different parents  <=>  an odd number of crossovers in gap g
+//! ```
+//!
+//! Backward, every lineage is one individual carrying ancestral material: a sorted list of
+//! disjoint site intervals [left, right), each with the local-tree node it currently sits
+//! above, the reproduction events (jumps) since that node, and the number of samples below
+//! (the segment bookkeeping of ancestral recombination graph algorithms; Hudson 1983 for the
+//! coalescent version). At each reproduction the material is split between the two parents;
+//! lineages landing on one (deme, generation) are seated exactly as in the engine (each is the
+//! same individual as each of the m occupied ones with probability 1/N, multiple mergers and
+//! sampled ancestors included), and where the material of several lineages seated on one
+//! individual overlaps, the overlap coalesces into a new local-tree node. An interval whose
+//! node is ancestral to all n samples has found its most recent common ancestor and is
+//! dropped. Lineages stop at founders and beyond the horizon (a forest, per local tree).
+//!
+//! Crossovers are drawn only over the gaps `left_min + 1 ..= min(right_max, L - 1)` of a
+//! lineage's material: the parent of the first carried site is uniform between the two
+//! whatever happened further left, and the two parents are exchangeable, so neither the
+//! crossovers left of the material nor a coin for the starting parent change the law.
+//! Crossovers right of the last carried site cannot split the material; the one gap just
+//! right of it is drawn anyway so that [`Arg::tree_crossovers`] counts every crossover on the
+//! marginal tree of the left site of a gap. With r = 0 no extra random number is drawn and the
+//! engine consumes the stream exactly as [`crate::engine::Simulator`] does, so the single local
+//! tree is the engine's genealogy, replicate by replicate.
+//!
+//! ```
+//! use seedline::arg::{ArgConfig, ArgSimulator};
+//! use seedline::{batch, scenario::Scenario};
+//! let yaml = "demes: [{name: pond, size: 200, dormancy: {law: geometric, mean: 2}}]\n\
+//!             samples: [{deme: pond, count: 4}]\n";
+//! let scenario = Scenario::from_yaml_str(yaml, "inline").unwrap();
+//! // rho = 2 N r (L - 1) = 2 * 200 * 1e-4 * 99 ~ 4 (per unit of N generations, before dormancy).
+//! let config = ArgConfig::new(100, 1e-4).unwrap();
+//! let mut rng = batch::replicate_rng(&batch::master_key(scenario.seed()), 0);
+//! let arg = ArgSimulator::new().simulate(&scenario, &config, &mut rng);
+//! assert_eq!(arg.trees().len(), arg.breakpoints() + 1);
+//! assert!(arg.trees().iter().all(|t| t.genealogy().is_tree()));
+//! ```
+
+mod ld;
+mod trees;
+
+pub use ld::{LdBin, ld_decay, r_squared};
+pub use trees::LocalTree;
+
+use crate::dormancy::Dormancy;
+use crate::genealogy::Node;
+use crate::scenario::{SampleKind, Scenario};
+use rand::{Rng, RngExt};
+use rand_distr::Exp1;
+use std::cmp::Reverse;
+use std::collections::BinaryHeap;
+
+/// Why an [`ArgConfig`] was refused.
+#[derive(Debug, Clone, PartialEq, thiserror::Error)]
+#[non_exhaustive]
+pub enum ArgError {
+    /// The sequence has no site.
+    #[error("the sequence needs at least one site (sites = 0)")]
+    NoSites,
+    /// The sequence is longer than the engine can index.
+    #[error("sites = {0} is more than the largest supported length 2^53")]
+    TooManySites(u64),
+    /// The recombination rate is negative, NaN or infinite.
+    #[error("recombination rate r = {0} must be finite and >= 0 (crossovers per gap per reproduction)")]
+    BadRate(f64),
+}
+
+/// Sequence length and recombination rate of the ARG engine.
+///
+/// `sites` = L, the number of sites (L - 1 gaps); `recombination_rate` = r, the mean number
+/// of crossovers per gap per reproduction event (dormant generations count none). The
+/// population-scaled rate over the whole sequence in one deme of N haploids is
+/// ```text
+/// rho = 2 N r (L - 1)     (coalescent unit N generations; per-lineage rate N r (L-1) = rho/2)
+/// ```
+#[derive(Debug, Clone, Copy, PartialEq)]
+pub struct ArgConfig {
+    sites: u64,
+    recombination_rate: f64,
+}
+
+impl ArgConfig {
+    /// Checks and builds: `sites` in 1..=2^53, `recombination_rate` finite and >= 0.
+    pub fn new(sites: u64, recombination_rate: f64) -> Result<Self, ArgError> {
+        if sites == 0 {
+            return Err(ArgError::NoSites);
+        }
+        if sites > 1 << 53 {
+            return Err(ArgError::TooManySites(sites));
+        }
+        if !recombination_rate.is_finite() || recombination_rate < 0.0 {
+            return Err(ArgError::BadRate(recombination_rate));
+        }
+        Ok(ArgConfig { sites, recombination_rate })
+    }
+
+    /// Number of sites L.
+    pub fn sites(&self) -> u64 {
+        self.sites
+    }
+
+    /// Crossovers per gap per reproduction event, r.
+    pub fn recombination_rate(&self) -> f64 {
+        self.recombination_rate
+    }
+}
+
+/// The ancestry of a sample along a sequence: its local trees and recombination counts.
+#[derive(Debug, Clone)]
+pub struct Arg {
+    sites: u64,
+    n_samples: usize,
+    trees: Vec<LocalTree>,
+    recombination_events: u64,
+    tree_crossovers: u64,
+    splits: Vec<(u64, u32)>,
+    steps: u64,
+    n_nodes: usize,
+}
+
+impl Arg {
+    /// Number of sites L.
+    pub fn sites(&self) -> u64 {
+        self.sites
+    }
+
+    /// Number of sampled individuals (every local tree has them all, nodes `0..n`).
+    pub fn n_samples(&self) -> usize {
+        self.n_samples
+    }
+
+    /// The local trees, left to right; they tile `[0, L)`. Adjacent trees always differ
+    /// (in topology, node times or jumps on some edge): equal neighbours are one interval.
+    pub fn trees(&self) -> &[LocalTree] {
+        &self.trees
+    }
+
+    /// The local tree of `site` (panics when `site >= L`).
+    pub fn tree_at(&self, site: u64) -> &LocalTree {
+        assert!(site < self.sites, "site {site} outside the sequence of {} sites", self.sites);
+        let i = self.trees.partition_point(|t| t.right() <= site);
+        &self.trees[i]
+    }
+
+    /// Recombination breakpoints: distinct positions where the local tree changes
+    /// (`trees().len() - 1`). Crossovers whose two sides end up in equal trees are invisible
+    /// and not counted here.
+    pub fn breakpoints(&self) -> usize {
+        self.trees.len() - 1
+    }
+
+    /// Crossover events in the ancestry: reproduction events whose ancestral material was
+    /// split between the two parents (recombination nodes of the graph).
+    pub fn recombination_events(&self) -> u64 {
+        self.recombination_events
+    }
+
+    /// Crossovers on the marginal trees: crossovers in gap g at an individual carrying site
+    /// g - 1 before its most recent common ancestor, summed over gaps (any parity).
+    ///
+    /// ```text
+    /// E[tree_crossovers] = r * sum_g E[J(g-1)] = r (L - 1) E[J]
+    /// ```
+    /// where J is the number of reproduction events (jumps) on the genealogy of one site, whose
+    /// law is the engine's. This is the quantity of Hudson & Kaplan (1985): rho a_n in the
+    /// coalescent limit without dormancy. Reproductions whose parents would lie beyond the
+    /// horizon are not drawn (the lineage stops there), so with a finite horizon J counts the
+    /// jumps that stay inside it.
+    pub fn tree_crossovers(&self) -> u64 {
+        self.tree_crossovers
+    }
+
+    /// Gaps where adjacent sites were separated: (gap g, number of reproduction events at
+    /// individuals carrying both sites g - 1 and g whose two sites went to different
+    /// parents), sorted by gap. A local tree can only change at such a gap.
+    pub fn splits(&self) -> &[(u64, u32)] {
+        &self.splits
+    }
+
+    /// Lineage steps (reproduction events drawn) taken by the engine.
+    pub fn steps(&self) -> u64 {
+        self.steps
+    }
+
+    /// Nodes of the graph: samples plus every coalescence node made.
+    pub fn n_nodes(&self) -> usize {
+        self.n_nodes
+    }
+
+    /// Writes every local tree as Newick, as [`crate::genealogy::Genealogy::write_newick`]
+    /// does, with the sites of the tree named in the leading comment:
+    /// `[replicate 3 sites 0-41](...);`, and `[replicate 3 sites 0-41 tree 1 of 2]...` for a
+    /// forest. Site ranges are inclusive.
+    pub fn write_newick(&self, labels: &[String], replicate: u64, out: &mut String) {
+        let head = format!("[replicate {replicate}");
+        let mut tmp = String::new();
+        for t in &self.trees {
+            tmp.clear();
+            t.genealogy().write_newick(labels, replicate, &mut tmp);
+            for line in tmp.lines() {
+                let rest = line.strip_prefix(&head).expect("Genealogy::write_newick starts with the replicate");
+                out.push_str(&head);
+                out.push_str(&format!(" sites {}-{}", t.left(), t.right() - 1));
+                out.push_str(rest);
+                out.push('\n');
+            }
+        }
+    }
+}
+
+/// One interval of ancestral material carried by a lineage.
+#[derive(Debug, Clone, Copy, PartialEq, Eq)]
+struct Seg {
+    left: u64,
+    right: u64,
+    /// Local-tree node at the bottom of the lineage's edge for these sites.
+    node: u32,
+    /// Jumps since `node`, the one that landed here included.
+    jumps: u64,
+    /// Samples below `node`.
+    count: u32,
+}
+
+/// A lineage waiting at (time, deme). Orders as the engine's entries: key, then node.
+#[derive(Debug, Clone, Copy, PartialEq, Eq, PartialOrd, Ord)]
+struct Entry {
+    /// time * n_demes + deme.
+    key: u64,
+    /// Node of the first segment (the engine's tie-break at r = 0).
+    node: u32,
+    /// Slab index of the lineage's material.
+    id: u32,
+    /// A sampled individual (an occupied seat of its generation).
+    sample: bool,
+}
+
+/// A piece of a local tree: an edge over the sites [left, right).
+#[derive(Debug, Clone, Copy, PartialEq, Eq)]
+pub(crate) struct EdgeRec {
+    pub left: u64,
+    pub right: u64,
+    pub parent: u32,
+    pub child: u32,
+    pub jumps: u64,
+}
+
+/// A root of the local trees over [left, right): an MRCA or a lineage that stopped.
+#[derive(Debug, Clone, Copy, PartialEq, Eq)]
+pub(crate) struct RootRec {
+    pub left: u64,
+    pub right: u64,
+    pub node: u32,
+}
+
+/// Simulates ancestral recombination graphs; owns scratch buffers reused across replicates.
+#[derive(Debug, Default)]
+pub struct ArgSimulator {
+    heap: BinaryHeap<Reverse<Entry>>,
+    slab: Vec<Vec<Seg>>,
+    free: Vec<u32>,
+    group: Vec<Entry>,
+    seat: Vec<u32>,
+    order: Vec<u32>,
+    nodes: Vec<Node>,
+    edges: Vec<EdgeRec>,
+    roots: Vec<RootRec>,
+    split_gaps: Vec<u64>,
+    cross: Vec<u64>,
+    switches: Vec<u64>,
+    pool: Vec<(Seg, bool)>,
+    events: Vec<(u64, bool, u32)>,
+    active: Vec<u32>,
+    made: Vec<(Vec<u32>, u32)>,
+    recombination_events: u64,
+    tree_crossovers: u64,
+    steps: u64,
+}
+
+impl ArgSimulator {
+    /// A simulator with empty buffers.
+    pub fn new() -> Self {
+        ArgSimulator::default()
+    }
+
+    /// Simulates the ancestry of the scenario's sample along `config.sites()` sites, drawing
+    /// only from `rng`.
+    pub fn simulate<R: Rng + ?Sized>(&mut self, scenario: &Scenario, config: &ArgConfig, rng: &mut R) -> Arg {
+        let model = Model::new(scenario, config);
+        let samples = scenario.samples();
+        let n = samples.len();
+        self.reset();
+        let full = |i: usize| Seg { left: 0, right: model.sites, node: i as u32, jumps: 0, count: 1 };
+        for (i, s) in samples.iter().enumerate() {
+            self.nodes.push(Node { time: s.time, deme: s.deme, sample: Some(i as u32) });
+        }
+        for (i, s) in samples.iter().enumerate() {
+            if n == 1 {
+                self.roots.push(RootRec { left: 0, right: model.sites, node: 0 });
+                break;
+            }
+            let id = self.alloc();
+            self.slab[id as usize].push(full(i));
+            match s.kind {
+                SampleKind::Population => {
+                    self.heap.push(Reverse(Entry { key: model.key(s.time, s.deme), node: i as u32, id, sample: true }))
+                }
+                SampleKind::Seedbank => {
+                    // The seed was made a + 1 generations before sampling, as in the engine.
+                    let age = scenario.seed_age(s.deme, s.time).map_or(0, |a| a.sample(rng));
+                    self.reproduce(&model, id, s.time, s.deme, s.time.saturating_add(age + 1), rng);
+                }
+            }
+        }
+        while let Some(Reverse(top)) = self.heap.pop() {
+            if self.heap.is_empty() {
+                // Nothing left to meet: the material can never coalesce again.
+                self.stop(top.id);
+                break;
+            }
+            let (time, deme) = model.split(top.key);
+            if !top.sample && self.heap.peek().is_none_or(|Reverse(e)| e.key != top.key) {
+                self.step(&model, top.id, time, deme, rng);
+                continue;
+            }
+            self.group.clear();
+            self.group.push(top);
+            while let Some(&Reverse(e)) = self.heap.peek() {
+                if e.key != top.key {
+                    break;
+                }
+                self.group.push(e);
+                self.heap.pop();
+            }
+            self.seat_group(&model, n as u32, time, deme, rng);
+        }
+        self.split_gaps.sort_unstable();
+        let mut splits: Vec<(u64, u32)> = Vec::new();
+        for &g in &self.split_gaps {
+            match splits.last_mut() {
+                Some((h, c)) if *h == g => *c += 1,
+                _ => splits.push((g, 1)),
+            }
+        }
+        let trees = trees::build(n, model.sites, &self.nodes, &mut self.edges, &mut self.roots);
+        Arg {
+            sites: model.sites,
+            n_samples: n,
+            trees,
+            recombination_events: self.recombination_events,
+            tree_crossovers: self.tree_crossovers,
+            splits,
+            steps: self.steps,
+            n_nodes: self.nodes.len(),
+        }
+    }
+
+    fn reset(&mut self) {
+        self.heap.clear();
+        for s in &mut self.slab {
+            s.clear();
+        }
+        self.free.clear();
+        self.free.extend((0..self.slab.len() as u32).rev());
+        self.nodes.clear();
+        self.edges.clear();
+        self.roots.clear();
+        self.split_gaps.clear();
+        self.recombination_events = 0;
+        self.tree_crossovers = 0;
+        self.steps = 0;
+    }
+
+    fn alloc(&mut self) -> u32 {
+        if let Some(id) = self.free.pop() {
+            id
+        } else {
+            self.slab.push(Vec::new());
+            (self.slab.len() - 1) as u32
+        }
+    }
+
+    fn release(&mut self, id: u32) {
+        self.slab[id as usize].clear();
+        self.free.push(id);
+    }
+
+    /// The lineage stops (founder, horizon, or alone): each segment is a root of its sites.
+    fn stop(&mut self, id: u32) {
+        for s in &self.slab[id as usize] {
+            self.roots.push(RootRec { left: s.left, right: s.right, node: s.node });
+        }
+        self.release(id);
+    }
+
+    /// Seats every lineage of one (deme, generation), exactly as the engine, and merges the
+    /// material of lineages seated on one individual.
+    fn seat_group<R: Rng + ?Sized>(&mut self, model: &Model, n: u32, time: u64, deme: usize, rng: &mut R) {
+        let size = model.size(deme, time);
+        self.group.sort_unstable_by_key(|e| (!e.sample, e.node, e.id));
+        let mut occupied = self.group.iter().filter(|e| e.sample).count() as u64;
+        self.seat.clear();
+        for e in &self.group {
+            let s = if e.sample {
+                self.seat.len() as u64
+            } else if occupied == 0 {
+                occupied = 1;
+                0
+            } else if size == 1 {
+                0
+            } else {
+                let u = rng.random_range(0..size);
+                if u < occupied {
+                    u
+                } else {
+                    occupied += 1;
+                    occupied - 1
+                }
+            };
+            self.seat.push(s as u32);
+        }
+        self.order.clear();
+        self.order.extend(0..self.group.len() as u32);
+        let seat = &self.seat;
+        self.order.sort_unstable_by_key(|&i| (seat[i as usize], i));
+        let mut i = 0;
+        while i < self.order.len() {
+            let s = self.seat[self.order[i] as usize];
+            let mut j = i + 1;
+            while j < self.order.len() && self.seat[self.order[j] as usize] == s {
+                j += 1;
+            }
+            let head = self.group[self.order[i] as usize];
+            let id = if j - i == 1 { Some(head.id) } else { self.merge(i, j, n, time, deme) };
+            if let Some(id) = id {
+                self.step(model, id, time, deme, rng);
+            }
+            i = j;
+        }
+    }
+
+    /// Merges the material of `group[order[i..j]]` (seated on one individual at `time`) into
+    /// one lineage; overlaps coalesce. Returns the lineage, or `None` when all its material
+    /// found its MRCA.
+    fn merge(&mut self, i: usize, j: usize, n: u32, time: u64, deme: usize) -> Option<u32> {
+        self.pool.clear();
+        self.events.clear();
+        for k in i..j {
+            let e = self.group[self.order[k] as usize];
+            for s in &self.slab[e.id as usize] {
+                let p = self.pool.len() as u32;
+                self.pool.push((*s, e.sample));
+                // Ends sort before starts at one position (false < true).
+                self.events.push((s.left, true, p));
+                self.events.push((s.right, false, p));
+            }
+        }
+        self.events.sort_unstable();
+        let keep = self.group[self.order[i] as usize].id;
+        for k in i..j {
+            let id = self.group[self.order[k] as usize].id;
+            if id != keep {
+                self.release(id);
+            }
+        }
+        self.slab[keep as usize].clear();
+        let mut out = std::mem::take(&mut self.slab[keep as usize]);
+        self.made.clear();
+        self.active.clear();
+        let mut prev = 0u64;
+        let mut e = 0;
+        while e < self.events.len() {
+            let pos = self.events[e].0;
+            if pos > prev && !self.active.is_empty() {
+                self.coalesce(prev, pos, n, time, deme, &mut out);
+            }
+            while e < self.events.len() && self.events[e].0 == pos {
+                let (_, start, p) = self.events[e];
+                if start {
+                    self.active.push(p);
+                } else {
+                    let at = self.active.iter().position(|&q| q == p).expect("segment ends after it starts");
+                    self.active.swap_remove(at);
+                }
+                e += 1;
+            }
+            prev = pos;
+        }
+        compress(&mut out);
+        let empty = out.is_empty();
+        self.slab[keep as usize] = out;
+        if empty {
+            self.release(keep);
+            None
+        } else {
+            Some(keep)
+        }
+    }
+
+    /// The sites [x, y), covered by the segments in `active`, at one individual.
+    fn coalesce(&mut self, x: u64, y: u64, n: u32, time: u64, deme: usize, out: &mut Vec<Seg>) {
+        if self.active.len() == 1 {
+            let (s, _) = self.pool[self.active[0] as usize];
+            out.push(Seg { left: x, right: y, ..s });
+            return;
+        }
+        let sample = self.active.iter().find(|&&p| self.pool[p as usize].1).map(|&p| self.pool[p as usize].0.node);
+        let parent = match sample {
+            Some(s) => s,
+            None => {
+                let mut kids: Vec<u32> = self.active.iter().map(|&p| self.pool[p as usize].0.node).collect();
+                kids.sort_unstable();
+                match self.made.iter().find(|(k, _)| *k == kids) {
+                    Some(&(_, id)) => id,
+                    None => {
+                        let id = self.nodes.len() as u32;
+                        self.nodes.push(Node { time, deme, sample: None });
+                        self.made.push((kids, id));
+                        id
+                    }
+                }
+            }
+        };
+        let mut count = 0;
+        for &p in &self.active {
+            let (s, _) = self.pool[p as usize];
+            count += s.count;
+            if s.node != parent {
+                self.edges.push(EdgeRec { left: x, right: y, parent, child: s.node, jumps: s.jumps });
+            }
+        }
+        if count == n {
+            self.roots.push(RootRec { left: x, right: y, node: parent });
+        } else {
+            out.push(Seg { left: x, right: y, node: parent, jumps: 0, count });
+        }
+    }
+
+    /// The individual carrying lineage `id` at (deme, time) draws its look-back and parents.
+    fn step<R: Rng + ?Sized>(&mut self, model: &Model, id: u32, time: u64, deme: usize, rng: &mut R) {
+        let Some(r) = model.dormancy[deme].sample_at(time, rng) else {
+            self.stop(id);
+            return;
+        };
+        self.reproduce(model, id, time, deme, time.saturating_add(r), rng);
+    }
+
+    /// Reproduction of the individual (deme, time) from two parents at generation `to_time`:
+    /// crossovers split the material, each part draws its parent's deme and is queued.
+    fn reproduce<R: Rng + ?Sized>(
+        &mut self,
+        model: &Model,
+        id: u32,
+        time: u64,
+        deme: usize,
+        to_time: u64,
+        rng: &mut R,
+    ) {
+        self.steps += 1;
+        let mut other = None;
+        if model.rate > 0.0 && to_time <= model.horizon {
+            other = self.crossovers(model, id, rng);
+        }
+        for part in [Some(id), other].into_iter().flatten() {
+            let to = model.parent_deme(deme, time, rng);
+            if to_time > model.horizon {
+                self.stop(part);
+                continue;
+            }
+            let segs = &mut self.slab[part as usize];
+            for s in segs.iter_mut() {
+                s.jumps += 1;
+            }
+            let node = segs[0].node;
+            self.heap.push(Reverse(Entry { key: model.key(to_time, to), node, id: part, sample: false }));
+        }
+    }
+
+    /// Draws the crossovers of one reproduction over the lineage's material and splits it;
+    /// returns the lineage of the second parent when both parents received material.
+    fn crossovers<R: Rng + ?Sized>(&mut self, model: &Model, id: u32, rng: &mut R) -> Option<u32> {
+        let segs = &self.slab[id as usize];
+        let lo = segs[0].left;
+        let hi = segs[segs.len() - 1].right;
+        let gaps = hi.min(model.sites - 1) - lo;
+        if gaps == 0 {
+            return None;
+        }
+        // Poisson process of rate r on [0, gaps): exponential spacings; gap lo + 1 + floor(x).
+        self.cross.clear();
+        let mut x = 0.0f64;
+        loop {
+            x += rng.sample::<f64, _>(Exp1) / model.rate;
+            if x >= gaps as f64 {
+                break;
+            }
+            self.cross.push(lo + 1 + (x as u64).min(gaps - 1));
+        }
+        if self.cross.is_empty() {
+            return None;
+        }
+        self.switches.clear();
+        let mut k = 0;
+        while k < self.cross.len() {
+            let g = self.cross[k];
+            let mut m = 0;
+            while k < self.cross.len() && self.cross[k] == g {
+                m += 1;
+                k += 1;
+            }
+            let left_site = carries(segs, g - 1);
+            if left_site {
+                self.tree_crossovers += m;
+            }
+            if m % 2 == 1 && g < hi {
+                self.switches.push(g);
+                if left_site && carries(segs, g) {
+                    self.split_gaps.push(g);
+                }
+            }
+        }
+        if self.switches.is_empty() {
+            return None;
+        }
+        let b = self.alloc();
+        let mut a_part = Vec::new();
+        let mut b_part = std::mem::take(&mut self.slab[b as usize]);
+        let segs = std::mem::take(&mut self.slab[id as usize]);
+        let mut to_b = false;
+        let mut w = 0;
+        for s in &segs {
+            let mut left = s.left;
+            while w < self.switches.len() && self.switches[w] <= left {
+                to_b = !to_b;
+                w += 1;
+            }
+            while w < self.switches.len() && self.switches[w] < s.right {
+                let g = self.switches[w];
+                let piece = Seg { left, right: g, ..*s };
+                if to_b {
+                    b_part.push(piece)
+                } else {
+                    a_part.push(piece)
+                }
+                left = g;
+                to_b = !to_b;
+                w += 1;
+            }
+            let piece = Seg { left, right: s.right, ..*s };
+            if to_b { b_part.push(piece) } else { a_part.push(piece) }
+        }
+        // The first carried site goes to parent A; parent B may still get nothing when the
+        // switches cancel in pairs inside holes of the material.
+        let split = !b_part.is_empty();
+        self.slab[id as usize] = a_part;
+        self.slab[b as usize] = b_part;
+        if split {
+            self.recombination_events += 1;
+            Some(b)
+        } else {
+            self.release(b);
+            None
+        }
+    }
+}
+
+/// Whether the sorted, disjoint segments carry `site`.
+fn carries(segs: &[Seg], site: u64) -> bool {
+    let i = segs.partition_point(|s| s.right <= site);
+    i < segs.len() && segs[i].left <= site
+}
+
+/// Joins adjacent segments with equal node, jumps and count.
+fn compress(segs: &mut Vec<Seg>) {
+    segs.dedup_by(|b, a| {
+        if a.right == b.left && a.node == b.node && a.jumps == b.jumps && a.count == b.count {
+            a.right = b.right;
+            true
+        } else {
+            false
+        }
+    });
+}
+
+/// The parts of a scenario the hot loop reads.
+struct Model<'a> {
+    scenario: &'a Scenario,
+    dormancy: Vec<&'a Dormancy>,
+    constant_size: Vec<Option<u64>>,
+    n_demes: u64,
+    horizon: u64,
+    migrates: bool,
+    sites: u64,
+    rate: f64,
+}
+
+impl<'a> Model<'a> {
+    fn new(scenario: &'a Scenario, config: &ArgConfig) -> Self {
+        let demes = scenario.demes();
+        Model {
+            scenario,
+            dormancy: demes.iter().map(|d| d.dormancy()).collect(),
+            constant_size: demes.iter().map(|d| d.size().as_constant()).collect(),
+            n_demes: demes.len() as u64,
+            horizon: scenario.horizon(),
+            migrates: scenario.migration().is_active(),
+            sites: config.sites,
+            rate: config.recombination_rate,
+        }
+    }
+
+    fn key(&self, time: u64, deme: usize) -> u64 {
+        time * self.n_demes + deme as u64
+    }
+
+    fn split(&self, key: u64) -> (u64, usize) {
+        (key / self.n_demes, (key % self.n_demes) as usize)
+    }
+
+    fn parent_deme<R: Rng + ?Sized>(&self, deme: usize, time: u64, rng: &mut R) -> usize {
+        if self.migrates { self.scenario.migration().parent_deme(deme, time, rng) } else { deme }
+    }
+
+    fn size(&self, deme: usize, time: u64) -> u64 {
+        self.constant_size[deme].unwrap_or_else(|| self.scenario.demes()[deme].size().at(time))
+    }
+}
+
+/// Simulates one ARG with a fresh simulator (convenience for tests and examples).
+pub fn simulate<R: Rng + ?Sized>(scenario: &Scenario, config: &ArgConfig, rng: &mut R) -> Arg {
+    ArgSimulator::new().simulate(scenario, config, rng)
+}
+
+#[cfg(test)]
+mod tests;
