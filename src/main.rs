@@ -41,6 +41,9 @@ enum Command {
         /// Output directory
         #[arg(long, default_value = "seedline-out")]
         out: PathBuf,
+        /// Engine: exact, approx (continuous-time limit; refused outside its domain) or auto
+        #[arg(long, default_value = "auto")]
+        engine: seedline::approx::EngineChoice,
     },
     /// Check a scenario file and print it as parsed, without simulating
     #[command(after_help = EXAMPLES)]
@@ -71,7 +74,9 @@ fn main() -> ExitCode {
                 return ExitCode::SUCCESS;
             }
             eprintln!("error: {e:#}");
-            let bad_input = e.chain().any(|c| c.is::<BadInput>() || c.is::<scenario::Error>());
+            let bad_input = e
+                .chain()
+                .any(|c| c.is::<BadInput>() || c.is::<scenario::Error>() || c.is::<seedline::approx::ApproxError>());
             ExitCode::from(if bad_input { 2 } else { 1 })
         }
     }
@@ -83,7 +88,7 @@ fn is_broken_pipe(e: &anyhow::Error) -> bool {
 
 fn run(cli: Cli) -> Result<()> {
     match cli.command {
-        Command::Simulate { scenario, replicates, seed, threads, out } => {
+        Command::Simulate { scenario, replicates, seed, threads, out, engine } => {
             let (raw, origin) = load_raw(scenario.as_deref())?;
             let raw = RawScenario { replicates: replicates.or(raw.replicates), seed: seed.or(raw.seed), ..raw };
             let scenario = Scenario::from_raw(raw, &origin)?;
@@ -92,11 +97,13 @@ fn run(cli: Cli) -> Result<()> {
                 &scenario,
                 &origin,
                 BatchConfig { threads, ..BatchConfig::default() },
+                engine,
                 &out,
                 &|| bar.inc(1),
             )?;
             bar.finish_and_clear();
             print!("{}", seedline::report::render_summary(&summary));
+            println!("{}", summary.engine.reason);
             println!(
                 "wrote {}",
                 seedline::report::SIMULATE_FILES.map(|f| out.join(f).display().to_string()).join(", ")

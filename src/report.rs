@@ -240,6 +240,8 @@ pub struct SimulationSummary {
     pub forests: u64,
     /// Summaries of the numeric columns of `replicates.tsv`, in column order.
     pub columns: Vec<(String, ColumnSummary)>,
+    /// The engine that ran and why.
+    pub engine: crate::approx::EngineDecision,
 }
 
 /// Accumulates the columns of `replicates.tsv` for the summary.
@@ -307,14 +309,21 @@ pub const SIMULATE_FILES: [&str; 3] = ["replicates.tsv", "trees.nwk", "summary.j
 
 /// Runs every replicate of the scenario and writes `replicates.tsv`, `trees.nwk` and
 /// `summary.json` into `dir` (each atomically). `progress` is called once per replicate.
+/// `engine` picks the exact or approximate engine ([`crate::approx::resolve`]).
 pub fn simulate_to_dir(
     scenario: &crate::scenario::Scenario,
     scenario_file: &str,
     config: crate::batch::BatchConfig,
+    engine: crate::approx::EngineChoice,
     dir: &Path,
     progress: &(dyn Fn() + Sync),
 ) -> anyhow::Result<SimulationSummary> {
     use anyhow::Context;
+    let engine = crate::approx::resolve(engine, scenario)?;
+    let approx = match engine.kind {
+        crate::approx::EngineKind::Approx => Some(crate::approx::ApproxModel::new(scenario)?),
+        crate::approx::EngineKind::Exact => None,
+    };
     fs::create_dir_all(dir).with_context(|| format!("creating output directory {}", dir.display()))?;
     let labels: Vec<String> = scenario.samples().iter().map(|s| s.label.clone()).collect();
     let reps: Vec<u64> = (0..scenario.replicates()).collect();
@@ -328,7 +337,10 @@ pub fn simulate_to_dir(
         &reps,
         config,
         |sim, sc, rep, rng| {
-            let g = sim.simulate(sc, rng);
+            let g = match &approx {
+                Some(model) => model.simulate(rng),
+                None => sim.simulate(sc, rng),
+            };
             let mut nwk = String::new();
             g.write_newick(&labels, rep, &mut nwk);
             progress();
@@ -355,6 +367,7 @@ pub fn simulate_to_dir(
         replicates: scenario.replicates(),
         forests,
         columns: acc.summaries(),
+        engine,
     };
     table.finish()?;
     trees.finish()?;
