@@ -53,13 +53,9 @@ fn bench_approx(c: &mut Criterion) {
         for pop in [1_000u64, 10_000_000] {
             let s = scenario(pop, n);
             let m = ApproxModel::new(&s).unwrap();
-            let key = master_key(1);
-            let mut rep = 0u64;
+            let mut rng = replicate_rng(&master_key(1), 0);
             group.bench_function(format!("approx/N={pop}/n={n}"), |b| {
-                b.iter(|| {
-                    rep += 1;
-                    black_box(m.simulate(&mut replicate_rng(&key, rep)).tmrca())
-                })
+                b.iter(|| black_box(m.simulate(&mut rng).tmrca()))
             });
         }
         let mut rng = ChaCha8Rng::seed_from_u64(1);
@@ -67,37 +63,52 @@ fn bench_approx(c: &mut Criterion) {
         group.bench_function(format!("plain_kingman/n={n}"), |b| {
             b.iter(|| black_box(plain_kingman(n as usize, 1000.0, &mut rng, &mut p, &mut t)))
         });
+        group.bench_function(format!("plain_kingman_fresh/n={n}"), |b| {
+            b.iter(|| black_box(plain_kingman_fresh(n as usize, 1000.0, &mut rng)))
+        });
     }
     group.finish();
 }
 
-/// Time per replicate of the approx engine (N = 10^3 and 10^7) and of plain Kingman, and the
-/// ratio approx / plain, medians of 7 interleaved rounds.
+/// The same loop returning a freshly allocated tree, as a simulator that hands out its
+/// genealogy (like [`ApproxModel::simulate`]) must.
+fn plain_kingman_fresh<R: Rng>(n: usize, pop: f64, rng: &mut R) -> (Vec<u32>, Vec<f64>) {
+    let (mut p, mut t) = (Vec::new(), Vec::new());
+    plain_kingman(n, pop, rng, &mut p, &mut t);
+    (p, t)
+}
+
+/// Time per replicate of the approx engine (N = 10^3 and 10^7) and of plain Kingman (buffers
+/// reused, or a fresh tree per replicate), and the ratios, medians of 7 interleaved rounds.
 fn ratios() {
-    println!("\ntime per replicate (median of 7 rounds of 0.2 s each)");
+    println!("\ntime per replicate (median of 7 rounds of 0.2 s each); ratios: approx N=1e7 over the others");
     println!(
-        "{:<6} {:>16} {:>16} {:>16} {:>10} {:>10}",
-        "n", "approx N=1e3", "approx N=1e7", "plain Kingman", "ratio 1e3", "ratio 1e7"
+        "{:<5} {:>13} {:>13} {:>13} {:>13} {:>8} {:>9} {:>9}",
+        "n", "approx N=1e3", "approx N=1e7", "plain reuse", "plain fresh", "1e7/1e3", "vs reuse", "vs fresh"
     );
     for n in [20u32, 100] {
-        let models: Vec<Scenario> = [1_000u64, 10_000_000].iter().map(|&p| scenario(p, n)).collect();
-        let models: Vec<ApproxModel> = models.iter().map(|s| ApproxModel::new(s).unwrap()).collect();
-        let key = master_key(2);
+        let scenarios: Vec<Scenario> = [1_000u64, 10_000_000].iter().map(|&p| scenario(p, n)).collect();
+        let models: Vec<ApproxModel> = scenarios.iter().map(|s| ApproxModel::new(s).unwrap()).collect();
+        // One stream for all replicates, as for the plain loop: both time the simulation alone.
         let mut rng = ChaCha8Rng::seed_from_u64(2);
         let (mut p, mut t) = (Vec::new(), Vec::new());
-        let mut per = [Vec::new(), Vec::new(), Vec::new()];
-        let mut rep = 0u64;
+        let mut per = [Vec::new(), Vec::new(), Vec::new(), Vec::new()];
         for _ in 0..7 {
             for (slot, per_slot) in per.iter_mut().enumerate() {
                 let t0 = Instant::now();
                 let mut count = 0u64;
                 while t0.elapsed().as_secs_f64() < 0.2 {
                     for _ in 0..64 {
-                        rep += 1;
-                        if slot < 2 {
-                            black_box(models[slot].simulate(&mut replicate_rng(&key, rep)).tmrca());
-                        } else {
-                            black_box(plain_kingman(n as usize, 1000.0, &mut rng, &mut p, &mut t));
+                        match slot {
+                            0 | 1 => {
+                                black_box(models[slot].simulate(&mut rng).tmrca());
+                            }
+                            2 => {
+                                black_box(plain_kingman(n as usize, 1000.0, &mut rng, &mut p, &mut t));
+                            }
+                            _ => {
+                                black_box(plain_kingman_fresh(n as usize, 1000.0, &mut rng));
+                            }
                         }
                     }
                     count += 64;
@@ -109,8 +120,17 @@ fn ratios() {
             v.sort_by(f64::total_cmp);
             v[v.len() / 2]
         };
-        let [a, b, k] = per.map(|mut v| med(&mut v));
-        println!("{n:<6} {:>14.2}us {:>14.2}us {:>14.2}us {:>10.2} {:>10.2}", a * 1e6, b * 1e6, k * 1e6, a / k, b / k);
+        let [a, b, k, f] = per.map(|mut v| med(&mut v));
+        println!(
+            "{n:<5} {:>11.2}us {:>11.2}us {:>11.2}us {:>11.2}us {:>8.2} {:>9.2} {:>9.2}",
+            a * 1e6,
+            b * 1e6,
+            k * 1e6,
+            f * 1e6,
+            b / a,
+            b / k,
+            b / f
+        );
     }
 }
 

@@ -436,6 +436,8 @@ pub struct ApproxModel<'a> {
     mig: Vec<MigEpoch>,
     migrates: bool,
     horizon: f64,
+    /// (E[R], scale, N) when the plain Kingman fast path applies.
+    plain: Option<(f64, f64, f64)>,
 }
 
 /// One live lineage.
@@ -497,7 +499,8 @@ impl<'a> ApproxModel<'a> {
     pub fn new(scenario: &'a Scenario) -> Result<Self, ApproxError> {
         let demes = deme_models(scenario)?;
         let sizes: Vec<&[SizeEpoch]> = scenario.demes().iter().map(|d| d.size().epochs()).collect();
-        let constant = sizes.iter().map(|e| (e.len() == 1 && e[0].growth == 0.0).then_some(e[0].size)).collect();
+        let constant: Vec<Option<f64>> =
+            sizes.iter().map(|e| (e.len() == 1 && e[0].growth == 0.0).then_some(e[0].size)).collect();
         let mig = scenario
             .migration()
             .epochs()
@@ -524,8 +527,18 @@ impl<'a> ApproxModel<'a> {
                 MigEpoch { end: if ep.end() == u64::MAX { f64::INFINITY } else { ep.end() as f64 }, out, rows }
             })
             .collect();
+        let samples = scenario.samples();
+        let plain = match (demes.as_slice(), constant.as_slice()) {
+            ([DemeModel::Kingman { mean, scale, .. }], [Some(size)])
+                if samples.iter().all(|x| x.kind == SampleKind::Population && x.time == samples[0].time) =>
+            {
+                Some((*mean, *scale, *size))
+            }
+            _ => None,
+        };
         Ok(ApproxModel {
             scenario,
+            plain,
             demes,
             sizes,
             constant,
@@ -630,19 +643,25 @@ impl<'a> ApproxModel<'a> {
             };
             out.push(entry);
         }
-        // Stable: equal times keep sample order.
-        out.sort_by(|a, b| a.0.total_cmp(&b.0));
+        // Stable: equal times keep sample order. Usually already sorted (all at time 0).
+        if !out.is_sorted_by(|a, b| a.0 <= b.0) {
+            out.sort_by(|a, b| a.0.total_cmp(&b.0));
+        }
         out
     }
 
     /// Simulates one genealogy, drawing only from `rng`.
     pub fn simulate<R: Rng + ?Sized>(&self, rng: &mut R) -> Genealogy {
+        if let Some((mean, scale, size)) = self.plain {
+            return self.simulate_plain(mean, scale, size, rng);
+        }
         let n_demes = self.demes.len();
         let mut g = Genealogy::with_samples(self.scenario.samples().len());
         let entries = self.entries(&mut g, rng);
+        let n = entries.len();
         let mut st = State {
-            lins: Vec::with_capacity(2 * entries.len()),
-            active: vec![Vec::new(); n_demes],
+            lins: Vec::with_capacity(2 * n),
+            active: (0..n_demes).map(|_| Vec::with_capacity(if n_demes == 1 { n } else { 0 })).collect(),
             dormant: Vec::new(),
             wake_total: 0.0,
         };
@@ -712,6 +731,47 @@ impl<'a> ApproxModel<'a> {
         }
         for e in &entries[next..] {
             g.add_root(e.1.node);
+        }
+        g.sort_roots();
+        g.set_steps(steps);
+        g
+    }
+
+    /// Fast path for one deme of constant size under Kingman with every sample taken from the
+    /// population at one time: the plain Kingman loop (the general loop gives the same law).
+    fn simulate_plain<R: Rng + ?Sized>(&self, mean: f64, scale: f64, size: f64, rng: &mut R) -> Genealogy {
+        let samples = self.scenario.samples();
+        let mut g = Genealogy::with_samples(samples.len());
+        let t0 = samples[0].time;
+        let mut live: Vec<(u32, u64)> = Vec::with_capacity(samples.len());
+        for i in 0..samples.len() {
+            live.push((g.add_node(Node { time: t0, deme: 0, sample: Some(i as u32) }), t0));
+        }
+        let mut t = t0 as f64;
+        let mut steps = 0;
+        let sn = scale * size;
+        while live.len() > 1 {
+            let k = live.len();
+            t += exp1(rng) * sn / (k * (k - 1) / 2) as f64;
+            if t > self.horizon {
+                break;
+            }
+            steps += 1;
+            let i = rng.random_range(0..k);
+            let (na, ta) = live.swap_remove(i);
+            let j = rng.random_range(0..k - 1);
+            let (nb, tb) = live[j];
+            // t >= 0, so adding 1/2 and truncating rounds to the nearest generation.
+            let time = ((t + 0.5) as u64).max(ta.max(tb) + 1);
+            let node = g.add_node(Node { time, deme: 0, sample: None });
+            for (c, tc) in [(na, ta), (nb, tb)] {
+                let len = time - tc;
+                g.add_edge(node, c, ((len as f64 / mean + 0.5) as u64).clamp(1, len));
+            }
+            live[j] = (node, time);
+        }
+        for &(node, _) in &live {
+            g.add_root(node);
         }
         g.sort_roots();
         g.set_steps(steps);

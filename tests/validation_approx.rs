@@ -274,3 +274,43 @@ fn grid_seed_banks() {
         4000,
     );
 }
+
+// --- where the two part ------------------------------------------------------------------
+
+/// Measures exact against approx where auto picks the exact engine (small N, dormancy
+/// comparable to N) and prints the relative differences (reported in docs/performance.md).
+/// Asserts only the auto decision: these are measurements, not agreement checks.
+#[test]
+fn where_exact_and_approx_part() {
+    for (name, yaml, reps) in [
+        (
+            "N=50 geometric mean 5 n=10",
+            "seed: 11\ndemes: [{name: a, size: 50, dormancy: {law: geometric, mean: 5}}]\nsamples: [{deme: a, count: 10}]\n",
+            3000,
+        ),
+        (
+            "N=200 uniform{1..100} n=10",
+            "seed: 12\ndemes: [{name: a, size: 200, dormancy: {law: uniform, max: 100}}]\nsamples: [{deme: a, count: 10}]\n",
+            300,
+        ),
+        (
+            "N=100 seed-bank c=K=1 n=10",
+            "seed: 13\ndemes: [{name: a, size: 100, dormancy: {law: mixture, parts: [{weight: 98, law: none}, {weight: 1, law: geometric, mean: 100}]}}]\nsamples: [{deme: a, count: 10}]\n",
+            3000,
+        ),
+    ] {
+        let s = scenario(yaml);
+        assert_eq!(approx::choose(&s).0, EngineKind::Exact, "{name}");
+        let (ex, ap) = (exact_runs(&s, reps), approx_runs(&s, 4000));
+        let mut line = format!("{name:<28}");
+        for (k, what) in [(0, "tmrca"), (1, "length")] {
+            let ((me, se), (ma, sa)) = (column(&ex, k), column(&ap, k));
+            line.push_str(&format!(
+                " | {what} exact {me:.0}±{se:.0} approx {ma:.0}±{sa:.0} ({:+.1}%, z {:+.1})",
+                100.0 * (ma / me - 1.0),
+                (ma - me) / (se * se + sa * sa).sqrt()
+            ));
+        }
+        println!("{line}");
+    }
+}
