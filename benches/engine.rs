@@ -136,14 +136,22 @@ fn outside_engine_share() {
         let t1 = Instant::now();
         for rep in 0..40 {
             let keep = seedline::batch::Keep::default();
-            black_box(seedline::batch::simulate_replicate(&mut sim, &s, &key, round * 1000 + rep, keep, &labels).unwrap());
+            black_box(
+                seedline::batch::simulate_replicate(&mut sim, &s, &key, round * 1000 + rep, keep, &labels, None)
+                    .unwrap(),
+            );
         }
         total.push(t1.elapsed().as_secs_f64());
     }
     engine.sort_by(f64::total_cmp);
     total.sort_by(f64::total_cmp);
     let (e, t) = (engine[3], total[3]);
-    println!("\nn = 100, N = 10^4, geometric mean 2, theta ~ 8: engine {:.4} s, replicate with mutations and statistics {:.4} s per 40 replicates; share outside the engine {:.1}%", e, t, 100.0 * (t - e) / t);
+    println!(
+        "\nn = 100, N = 10^4, geometric mean 2, theta ~ 8: engine {:.4} s, replicate with mutations and statistics {:.4} s per 40 replicates; share outside the engine {:.1}%",
+        e,
+        t,
+        100.0 * (t - e) / t
+    );
 }
 
 criterion_group!(benches, bench_engine);

@@ -167,6 +167,9 @@ pub struct LocusOutcome {
 
 /// Simulates every locus of one replicate: genealogy, then mutations and statistics, each
 /// locus from its own stream [`locus_rng`]. Loci run in parallel when there are several.
+///
+/// `approx`: the continuous-time approximate engine to use instead of the exact one (see
+/// [`crate::approx`]), or `None` for the exact engine.
 pub fn simulate_replicate(
     sim: &mut Simulator,
     scenario: &Scenario,
@@ -174,10 +177,14 @@ pub fn simulate_replicate(
     replicate: u64,
     keep: Keep,
     labels: &[String],
+    approx: Option<&crate::approx::ApproxModel>,
 ) -> Result<Vec<LocusOutcome>, crate::mutation::Error> {
     let one = |sim: &mut Simulator, locus: u64| -> Result<LocusOutcome, crate::mutation::Error> {
         let mut rng = locus_rng(key, replicate, locus);
-        let g = sim.simulate(scenario, &mut rng);
+        let g = match approx {
+            Some(model) => model.simulate(&mut rng),
+            None => sim.simulate(scenario, &mut rng),
+        };
         let demes: Vec<u32> = scenario.samples().iter().map(|s| s.deme as u32).collect();
         let mutations = match scenario.mutation() {
             Some(m) => Some(crate::mutation::place(&g, m, demes, &mut rng)?),

@@ -52,6 +52,9 @@ enum Command {
         /// Also write loci.tsv with one row per locus
         #[arg(long)]
         loci_table: bool,
+        /// Engine: exact, approx (continuous-time limit; refused outside its domain) or auto
+        #[arg(long, default_value = "auto")]
+        engine: seedline::approx::EngineChoice,
     },
     /// Print what published theory predicts for the scenario, and why where nothing applies
     #[command(after_help = EXAMPLES)]
@@ -130,9 +133,12 @@ fn main() -> ExitCode {
                 return ExitCode::SUCCESS;
             }
             eprintln!("error: {e:#}");
-            let bad_input = e
-                .chain()
-                .any(|c| c.is::<BadInput>() || c.is::<scenario::Error>() || c.is::<seedline::observed::Error>());
+            let bad_input = e.chain().any(|c| {
+                c.is::<BadInput>()
+                    || c.is::<scenario::Error>()
+                    || c.is::<seedline::observed::Error>()
+                    || c.is::<seedline::approx::ApproxError>()
+            });
             ExitCode::from(if bad_input { 2 } else { 1 })
         }
     }
@@ -144,7 +150,7 @@ fn is_broken_pipe(e: &anyhow::Error) -> bool {
 
 fn run(cli: Cli) -> Result<()> {
     match cli.command {
-        Command::Simulate { scenario, replicates, seed, threads, out, vcf, diploid, loci_table } => {
+        Command::Simulate { scenario, replicates, seed, threads, out, vcf, diploid, loci_table, engine } => {
             let (raw, origin) = load_raw(scenario.as_deref())?;
             let raw = RawScenario { replicates: replicates.or(raw.replicates), seed: seed.or(raw.seed), ..raw };
             let scenario = Scenario::from_raw(raw, &origin)?;
@@ -153,13 +159,14 @@ fn run(cli: Cli) -> Result<()> {
                 &scenario,
                 &origin,
                 BatchConfig { threads, ..BatchConfig::default() },
-                seedline::report::SimulateOptions { vcf, diploid, loci_table },
+                seedline::report::SimulateOptions { vcf, diploid, loci_table, engine },
                 &out,
                 &|| bar.inc(1),
             )?;
             bar.finish_and_clear();
             print!("{}", seedline::report::render_summary(&summary));
             print!("{}", seedline::report::render_comparison(&summary.comparison));
+            println!("engine: {}", summary.engine.reason);
             for note in &summary.notes {
                 println!("note: {note}");
             }

@@ -240,7 +240,8 @@ mod tests {
         .unwrap();
         let key = master_key(3);
         let g = crate::engine::simulate(&s, &mut replicate_rng(&key, 0));
-        let m = place_with(&g, s.mutation().unwrap(), Count::Fixed(17), vec![0; 5], &mut replicate_rng(&key, 1)).unwrap();
+        let m =
+            place_with(&g, s.mutation().unwrap(), Count::Fixed(17), vec![0; 5], &mut replicate_rng(&key, 1)).unwrap();
         assert_eq!(m.positions.len(), 17);
     }
 

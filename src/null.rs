@@ -96,7 +96,10 @@ pub fn run(
     dir: &Path,
     progress: &(dyn Fn(u64) + Sync),
 ) -> Result<NullReport> {
-    ensure!(scenario.mutation().is_some(), "a null distribution needs a mutation model: add `mutation:` to the scenario");
+    ensure!(
+        scenario.mutation().is_some(),
+        "a null distribution needs a mutation model: add `mutation:` to the scenario"
+    );
     ensure!(cfg.chunk >= 1, "--chunk must be at least 1");
     let n = scenario.samples().len();
     let mut columns = replicate_columns(scenario);
@@ -143,7 +146,8 @@ pub fn run(
     let labels: Vec<String> = scenario.samples().iter().map(|s| s.label.clone()).collect();
     let n_demes = scenario.demes().len();
     let total_chunks = (reps.len() as u64).div_ceil(cfg.chunk);
-    let mut report = NullReport { resumed_chunks: 0, written_chunks: 0, total_chunks, shard_replicates: reps.len() as u64 };
+    let mut report =
+        NullReport { resumed_chunks: 0, written_chunks: 0, total_chunks, shard_replicates: reps.len() as u64 };
     let done = std::sync::atomic::AtomicU64::new(0);
     for (c, chunk) in reps.chunks(cfg.chunk as usize).enumerate() {
         let path = dir.join(chunk_name(c as u64));
@@ -198,7 +202,7 @@ fn replicate_with(
     labels: &[String],
 ) -> Result<Vec<batch::LocusOutcome>, crate::mutation::Error> {
     match count {
-        Count::Poisson => batch::simulate_replicate(sim, sc, key, rep, Keep::default(), labels),
+        Count::Poisson => batch::simulate_replicate(sim, sc, key, rep, Keep::default(), labels, None),
         Count::Fixed(s) => {
             // The fixed count applies to the whole replicate: one locus only.
             let mut rng = batch::locus_rng(key, rep, 0);
@@ -246,8 +250,16 @@ fn read_rows(path: &Path, columns: &[String], rows: &mut Vec<(u64, Vec<String>)>
     ensure!(head == columns, "{}: columns differ from the manifest's", path.display());
     for (i, line) in lines.enumerate() {
         let fields: Vec<String> = line.split('\t').map(String::from).collect();
-        ensure!(fields.len() == columns.len(), "{}, line {}: {} fields, expected {}", path.display(), i + 2, fields.len(), columns.len());
-        let rep: u64 = fields[0].parse().with_context(|| format!("{}, line {}: column replicate", path.display(), i + 2))?;
+        ensure!(
+            fields.len() == columns.len(),
+            "{}, line {}: {} fields, expected {}",
+            path.display(),
+            i + 2,
+            fields.len(),
+            columns.len()
+        );
+        let rep: u64 =
+            fields[0].parse().with_context(|| format!("{}, line {}: column replicate", path.display(), i + 2))?;
         rows.push((rep, fields));
     }
     Ok(())
@@ -255,7 +267,8 @@ fn read_rows(path: &Path, columns: &[String], rows: &mut Vec<(u64, Vec<String>)>
 
 fn manifest_of(dir: &Path) -> Result<Manifest> {
     let p = dir.join("null.json");
-    let text = fs::read_to_string(&p).with_context(|| format!("{} is not a null run directory (no null.json)", dir.display()))?;
+    let text = fs::read_to_string(&p)
+        .with_context(|| format!("{} is not a null run directory (no null.json)", dir.display()))?;
     serde_json::from_str(&text).with_context(|| format!("reading {}", p.display()))
 }
 
@@ -299,7 +312,12 @@ pub fn merge(dirs: &[PathBuf], out: &Path) -> Result<u64> {
             && m.replicates == first.replicates
             && m.mutations == first.mutations
             && m.columns == first.columns;
-        ensure!(same, "{} was made with other settings than {}: shards must share scenario, seed, replicates and mutations", d.display(), dirs[0].display());
+        ensure!(
+            same,
+            "{} was made with other settings than {}: shards must share scenario, seed, replicates and mutations",
+            d.display(),
+            dirs[0].display()
+        );
         let t = load(d)?;
         rows.extend(t.rows);
     }
@@ -309,7 +327,10 @@ pub fn merge(dirs: &[PathBuf], out: &Path) -> Result<u64> {
     }
     let have = rows.len() as u64;
     if have != first.replicates {
-        bail!("the runs hold {have} of {} replicates: some shard is missing or unfinished (rerun it to resume)", first.replicates);
+        bail!(
+            "the runs hold {have} of {} replicates: some shard is missing or unfinished (rerun it to resume)",
+            first.replicates
+        );
     }
     fs::create_dir_all(out)?;
     let mut text = first.columns.join("\t");

@@ -247,6 +247,8 @@ pub struct SimulationSummary {
     pub notes: Vec<String>,
     /// Simulated means against the predictions.
     pub comparison: Vec<Comparison>,
+    /// The engine that ran and why.
+    pub engine: crate::approx::EngineDecision,
 }
 
 /// Accumulates the columns of `replicates.tsv` for the summary.
@@ -322,6 +324,8 @@ pub struct SimulateOptions {
     pub diploid: bool,
     /// Write `loci.tsv`, one row per locus.
     pub loci_table: bool,
+    /// Exact, approximate or automatic choice of engine.
+    pub engine: crate::approx::EngineChoice,
 }
 
 /// The columns of `replicates.tsv` for a scenario.
@@ -407,6 +411,11 @@ pub fn simulate_to_dir(
     progress: &(dyn Fn() + Sync),
 ) -> anyhow::Result<SimulationSummary> {
     use anyhow::Context;
+    let engine = crate::approx::resolve(options.engine, scenario)?;
+    let approx = match engine.kind {
+        crate::approx::EngineKind::Approx => Some(crate::approx::ApproxModel::new(scenario)?),
+        crate::approx::EngineKind::Exact => None,
+    };
     fs::create_dir_all(dir).with_context(|| format!("creating output directory {}", dir.display()))?;
     let labels: Vec<String> = scenario.samples().iter().map(|s| s.label.clone()).collect();
     let n = scenario.samples().len();
@@ -450,7 +459,7 @@ pub fn simulate_to_dir(
         &reps,
         config,
         |sim, sc, rep, _| {
-            let r = crate::batch::simulate_replicate(sim, sc, &key, rep, keep, &labels);
+            let r = crate::batch::simulate_replicate(sim, sc, &key, rep, keep, &labels, approx.as_ref());
             progress();
             r
         },
@@ -527,6 +536,7 @@ pub fn simulate_to_dir(
         comparison: compare(&acc.summaries(), &sfs_means, &prediction, scenario.replicates()),
         prediction: prediction.to_json(),
         notes: prediction.notes.clone(),
+        engine,
     };
     table.finish()?;
     trees.finish()?;

@@ -21,7 +21,7 @@ fn stats(s: &Scenario, reps: u64) -> Vec<SampleStats> {
         s,
         &idx,
         BatchConfig::default(),
-        |sim, sc, rep, _| simulate_replicate(sim, sc, &key, rep, Keep::default(), &labels).unwrap(),
+        |sim, sc, rep, _| simulate_replicate(sim, sc, &key, rep, Keep::default(), &labels, None).unwrap(),
         |_, loci| {
             out.push(loci[0].stats.clone().unwrap());
             Ok(())
@@ -159,7 +159,7 @@ fn loci_add_up_and_the_locus_mean_of_d_tightens() {
     let mut summed = Vec::new();
     let mut dmean = Vec::new();
     for rep in 0..reps {
-        let loci = simulate_replicate(&mut sim, &many, &key, rep, Keep::default(), &labels).unwrap();
+        let loci = simulate_replicate(&mut sim, &many, &key, rep, Keep::default(), &labels, None).unwrap();
         assert_eq!(loci.len(), 8);
         summed.push(loci.iter().map(|l| l.stats.as_ref().unwrap().segregating_sites as f64).sum::<f64>());
         let ds: Vec<f64> = loci.iter().filter_map(|l| l.stats.as_ref().unwrap().tajima_d).collect();

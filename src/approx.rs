@@ -1,0 +1,870 @@
+//! A fast approximate engine: continuous-time coalescent limits whose cost does not grow with N.
+//!
+//! Where a limit theorem holds, the genealogy of the exact discrete engine ([`crate::engine`])
+//! is close to that of a continuous-time process whose event rates scale like 1/N, so one
+//! replicate costs O(number of events) instead of O(generations walked). Each deme follows
+//! one of two limits ([`DemeModel`]); lineages of all demes live in one process with
+//! migration between demes:
+//!
+//! ```text
+//! Kingman (KKL, finite-mean dormancy, look-back law fixed as N grows):
+//!   pair coalescence   1 / (N(t) E[R]² / d)   per generation, per pair in the deme
+//!   migration d → e    M[d][e] / E[R]          per generation, per lineage
+//! seed-bank coalescent (BGKW 2016, rare long dormancy: R = 1, or 1 + G with E[G] of order N):
+//!   pair coalescence   1 / N(t)                per generation, per pair of active lineages
+//!   go dormant         σ = w (g - 1) / g       per generation, per active lineage (= c / N)
+//!   wake               1 / g                   per generation, per dormant lineage (= cK / N)
+//!   migration d → e    M[d][e]                 per generation, per active lineage
+//! ```
+//! Sources: Kingman (1982) *Stoch. Proc. Appl.* 13:235; Kaj, Krone & Lascoux (2001) *J. Appl.
+//! Probab.* 38:285 (time change E\[R]²/d, d the gcd of the support; theory reference §3);
+//! Blath, González Casanova, Kurt & Wilke-Berenguer (2016) *Ann. Appl. Probab.* 26:857
+//! (theory reference §5; the look-back form and its (c, K) are §5.3 and
+//! [`SeedBankCoalescent::from_lookback`]); the structured coalescent with time in generations
+//! (Notohara 1990, *J. Math. Biol.* 29:59, citation from memory; theory reference §6).
+//!
+//! **Migration scaling (derived).** The exact engine draws a parent deme once per
+//! parent–offspring link, with probability M\[d]\[e]. A lineage in a deme of finite-mean law
+//! makes links at the renewal rate 1/E\[R] per generation (renewal theorem), so it moves at
+//! M\[d]\[e]/E\[R] per generation. An active lineage of a seed-bank-coalescent deme makes one
+//! link per generation (rate M\[d]\[e]); a lineage going dormant draws its destination deme once,
+//! with the full row of M, for the single long link it is about to make. Per-link probabilities
+//! are used as per-link rates (first order in M: the relative error on between-deme times is of
+//! order max M, exactly as in the continuous island formula DN + (D-1)/(2m) of §6).
+//!
+//! **Size changes** enter through the hazard ∫ C(k,2)/(s N(u)) du, integrated in closed form over
+//! each epoch of [`crate::demography::SizeHistory`] (exponential epochs are inverted exactly;
+//! the real-valued size is used, without the engine's rounding and floor of 1).
+//!
+//! **Output.** The same [`Genealogy`] as the exact engine: node times are the event times
+//! rounded to the nearest generation, bumped when needed so that every parent is at least one
+//! generation older than each child. Edge `jumps` are the expected number of reproduction
+//! events, round(links) clamped to \[1, length], where links accrue at 1/E\[R] per generation
+//! in a Kingman deme (round(length / E\[R]) for one deme), at 1 per active generation in a
+//! seed-bank deme, plus 1 for each dormant period. `steps` counts the events simulated.
+//! Multiple mergers and sampled ancestors (order 1/N effects) do not occur.
+//!
+//! **Samples.** Ancient samples enter as lineages at their sampling time. Seeds sampled from
+//! the bank (`from: seedbank`): in a Kingman deme, the lineage enters as an active lineage at
+//! the time of its parent, t + a + 1, with the age a drawn from the stationary seed-age law
+//! exactly as in the exact engine (the first link's migration too); in a seed-bank deme, the
+//! seed is in a long dormancy with probability w g / E\[R] (the renewal weight of that part)
+//! and then starts dormant at t, otherwise it is a one-generation seed whose parent is active
+//! at t + 1.
+
+use crate::demography::SizeEpoch;
+use crate::dormancy::{Dormancy, LookBack};
+use crate::genealogy::{Genealogy, Node};
+use crate::scenario::{SampleKind, Scenario};
+use crate::theory::seedbank_coalescent::SeedBankCoalescent;
+use rand::{Rng, RngExt};
+use rand_distr::{Distribution, Exp1};
+use std::fmt;
+use std::str::FromStr;
+
+/// Auto picks the exact engine when any deme has fewer individuals than this at any epoch
+/// start (or end of an exponential epoch): below it the discreteness of generations
+/// (multiple mergers, O(1/N) corrections) is no longer negligible at the 1% level.
+pub const MIN_DEME_SIZE: f64 = 200.0;
+
+/// Auto picks the exact engine when E\[R] or the look-back scale exceeds this fraction of N
+/// (dormancy comparable to N: neither limit holds), unless the law is of seed-bank-coalescent
+/// form.
+pub const MAX_LOOKBACK_FRACTION: f64 = 0.1;
+
+/// Tail level defining the look-back scale of an unbounded law: the smallest k with
+/// P(R > k) <= this.
+pub const LOOKBACK_TAIL: f64 = 1e-3;
+
+/// Largest switching rate c (per N generations) of the seed-bank coalescent that auto accepts:
+/// the number of switches per replicate grows like c, and for c ≫ 1 the process is a
+/// time-changed Kingman coalescent anyway.
+pub const MAX_SWITCH_RATE: f64 = 100.0;
+
+/// Which engine the user asked for.
+#[derive(Debug, Clone, Copy, PartialEq, Eq, Default, serde::Serialize)]
+#[serde(rename_all = "snake_case")]
+pub enum EngineChoice {
+    /// The exact discrete engine, always.
+    Exact,
+    /// The approximate engine; an error when the scenario is outside its domain.
+    Approx,
+    /// The approximate engine where a limit applies (see [`choose`]), else the exact one.
+    #[default]
+    Auto,
+}
+
+impl FromStr for EngineChoice {
+    type Err = ApproxError;
+    fn from_str(s: &str) -> Result<Self, Self::Err> {
+        match s {
+            "exact" => Ok(EngineChoice::Exact),
+            "approx" => Ok(EngineChoice::Approx),
+            "auto" => Ok(EngineChoice::Auto),
+            other => Err(ApproxError::UnknownEngine(other.to_string())),
+        }
+    }
+}
+
+impl fmt::Display for EngineChoice {
+    fn fmt(&self, f: &mut fmt::Formatter<'_>) -> fmt::Result {
+        f.write_str(match self {
+            EngineChoice::Exact => "exact",
+            EngineChoice::Approx => "approx",
+            EngineChoice::Auto => "auto",
+        })
+    }
+}
+
+/// The engine that runs.
+#[derive(Debug, Clone, Copy, PartialEq, Eq, serde::Serialize)]
+#[serde(rename_all = "snake_case")]
+pub enum EngineKind {
+    /// [`crate::engine::Simulator`].
+    Exact,
+    /// [`ApproxModel`].
+    Approx,
+}
+
+/// The engine that runs and why (written into `summary.json`).
+#[derive(Debug, Clone, PartialEq, Eq, serde::Serialize)]
+pub struct EngineDecision {
+    /// The engine.
+    pub kind: EngineKind,
+    /// Why, in words.
+    pub reason: String,
+}
+
+/// Why the approximate engine cannot run a scenario.
+#[derive(Debug, Clone, PartialEq, Eq, thiserror::Error)]
+#[non_exhaustive]
+pub enum ApproxError {
+    /// A deme is outside the domain of every limit the engine knows.
+    #[error("deme `{deme}`: {reason}")]
+    OutOfDomain {
+        /// Deme name.
+        deme: String,
+        /// What is wrong.
+        reason: String,
+    },
+    /// An engine name other than exact, approx or auto.
+    #[error("unknown engine `{0}`: use exact, approx or auto")]
+    UnknownEngine(String),
+}
+
+/// The limit process of one deme.
+#[derive(Debug, Clone, Copy, PartialEq, serde::Serialize)]
+pub enum DemeModel {
+    /// Kingman's coalescent slowed by the KKL factor `scale = E[R]²/d`.
+    Kingman {
+        /// E\[R].
+        mean: f64,
+        /// gcd d of the support of R.
+        gcd: u64,
+        /// E\[R]²/d.
+        scale: f64,
+    },
+    /// The seed-bank coalescent, rates per generation.
+    SeedBank {
+        /// Rate at which an active lineage goes dormant, w (g - 1)/g.
+        sleep: f64,
+        /// Rate at which a dormant lineage wakes, 1/g.
+        wake: f64,
+        /// Probability that a seed sampled from the bank is in a long dormancy, w g / E\[R].
+        dormant_seed: f64,
+        /// c (per N(0) generations), as in [`SeedBankCoalescent::from_lookback`].
+        c: f64,
+        /// K.
+        k: f64,
+    },
+}
+
+impl DemeModel {
+    /// Classifies a look-back law in a deme of present size `n0`.
+    ///
+    /// ```text
+    /// seed-bank form (from_lookback) with E[G] = g > n0/10   → SeedBank
+    /// finite mean, not time-dependent                          → Kingman, scale E[R]²/d
+    /// ```
+    /// Errors: time-dependent law (since_founding), infinite mean (power law with alpha <= 1
+    /// and no truncation).
+    pub fn of(law: &Dormancy, n0: f64) -> Result<DemeModel, String> {
+        if law.is_time_dependent() {
+            return Err("the since_founding law depends on time: no limit theorem applies".to_string());
+        }
+        if let (Some(sb), Some((w, g))) = (SeedBankCoalescent::from_lookback(law, n0), seedbank_parts(law))
+            && g > MAX_LOOKBACK_FRACTION * n0
+        {
+            let mean = law.mean().unwrap_or(f64::INFINITY);
+            return Ok(DemeModel::SeedBank {
+                sleep: w * (g - 1.0) / g,
+                wake: 1.0 / g,
+                dormant_seed: w * g / mean,
+                c: sb.c(),
+                k: sb.k(),
+            });
+        }
+        let Some(mean) = law.mean() else {
+            return Err(format!(
+                "the {} law has an infinite mean (heavy tail with alpha <= 1, untruncated): no Kingman limit",
+                law.law_name()
+            ));
+        };
+        let gcd = law.support_gcd().max(1);
+        Ok(DemeModel::Kingman { mean, gcd, scale: mean * mean / gcd as f64 })
+    }
+
+    /// Links (parent–offspring steps) per generation of an active lineage.
+    fn link_rate(&self) -> f64 {
+        match self {
+            DemeModel::Kingman { mean, .. } => 1.0 / mean,
+            DemeModel::SeedBank { .. } => 1.0,
+        }
+    }
+
+    /// Time-scale factor s in the pair coalescence rate 1/(s N).
+    fn coal_scale(&self) -> f64 {
+        match self {
+            DemeModel::Kingman { scale, .. } => *scale,
+            DemeModel::SeedBank { .. } => 1.0,
+        }
+    }
+}
+
+/// (w, g) of a mixture of `none` parts and one geometric part of weight w and mean g.
+fn seedbank_parts(law: &Dormancy) -> Option<(f64, f64)> {
+    let Dormancy::Mixture(m) = law else { return None };
+    let mut out = None;
+    for (w, part) in m.parts() {
+        match part {
+            Dormancy::None => {}
+            Dormancy::Geometric(g) if out.is_none() => out = Some((*w, g.mean()?)),
+            _ => return None,
+        }
+    }
+    out
+}
+
+/// The look-back scale: the largest value for a bounded law, else the smallest k with
+/// P(R > k) <= [`LOOKBACK_TAIL`] (found by doubling and bisection on the tail).
+pub fn lookback_scale(law: &Dormancy) -> f64 {
+    if let Some(m) = law.max_lookback() {
+        return m as f64;
+    }
+    let mut hi = 1u64;
+    while law.tail(hi) > LOOKBACK_TAIL {
+        if hi >= 1 << 62 {
+            return f64::INFINITY;
+        }
+        hi *= 2;
+    }
+    let mut lo = hi / 2;
+    while hi - lo > 1 {
+        let mid = lo + (hi - lo) / 2;
+        if law.tail(mid) > LOOKBACK_TAIL { lo = mid } else { hi = mid }
+    }
+    hi as f64
+}
+
+/// Smallest size a deme reaches, checked at every epoch start and at the end of every
+/// exponential epoch; for a last epoch shrinking back in time (growth > 0), at the time τ
+/// where the integrated pair hazard reaches 3 (95% of pairs have met):
+/// ```text
+/// ∫_0^τ du / (s N0 e^{-g u}) = 3   ⇒   N(τ) = N0 / (1 + 3 g s N0)
+/// ```
+fn min_size(epochs: &[SizeEpoch], s: f64) -> f64 {
+    let mut min = f64::INFINITY;
+    for (i, e) in epochs.iter().enumerate() {
+        min = min.min(e.size);
+        if e.growth != 0.0 {
+            let end = match epochs.get(i + 1) {
+                Some(next) => e.size * (-e.growth * (next.start - e.start) as f64).exp(),
+                None if e.growth > 0.0 => e.size / (1.0 + 3.0 * e.growth * s * e.size),
+                None => e.size,
+            };
+            min = min.min(end);
+        }
+    }
+    min
+}
+
+/// The limit model of every deme, or why one deme has none.
+fn deme_models(scenario: &Scenario) -> Result<Vec<DemeModel>, ApproxError> {
+    let migrates = scenario.migration().is_active();
+    let mut out = Vec::with_capacity(scenario.demes().len());
+    for (i, d) in scenario.demes().iter().enumerate() {
+        let err = |reason: String| ApproxError::OutOfDomain { deme: d.name().to_string(), reason };
+        let n0 = d.size().epochs()[0].size;
+        let m = DemeModel::of(d.dormancy(), n0).map_err(err)?;
+        if let DemeModel::Kingman { gcd, .. } = m
+            && gcd > 1
+        {
+            // Lineages on different residues mod d never meet in the exact model.
+            let mut residues = scenario.samples().iter().filter(|s| s.deme == i).map(|s| (s.time % gcd, s.kind));
+            let first = residues.next();
+            let same = residues.all(|r| Some(r) == first);
+            if migrates || !same || first.is_some_and(|(_, k)| k == SampleKind::Seedbank) {
+                return Err(err(format!(
+                    "the look-back support has period {gcd}: only samples of one residue mod {gcd}, \
+                     from the population and without migration, are modelled"
+                )));
+            }
+        }
+        out.push(m);
+    }
+    Ok(out)
+}
+
+/// Picks the engine for `auto`, with the reason in words.
+///
+/// The approximate engine is picked when every deme has a limit model ([`DemeModel::of`]) and
+///
+/// - N >= [`MIN_DEME_SIZE`] at every epoch start (and end of exponential epochs, see the
+///   module docs);
+/// - Kingman demes: E\[R] <= N/10 and the look-back scale ([`lookback_scale`]) <= N/10, N the
+///   smallest size of the deme;
+/// - seed-bank demes: c <= [`MAX_SWITCH_RATE`].
+///
+/// Otherwise the exact engine: since_founding, infinite mean, a periodic law with migration
+/// or mixed residues, small N, dormancy comparable to N.
+pub fn choose(scenario: &Scenario) -> (EngineKind, String) {
+    let models = match deme_models(scenario) {
+        Ok(m) => m,
+        Err(e) => return (EngineKind::Exact, format!("exact engine: no limit applies: {e}")),
+    };
+    let mut parts = Vec::new();
+    for (d, m) in scenario.demes().iter().zip(&models) {
+        let name = d.name();
+        let n = min_size(d.size().epochs(), m.coal_scale());
+        if n < MIN_DEME_SIZE {
+            return (
+                EngineKind::Exact,
+                format!("exact engine: deme `{name}` has N = {n:.0} < {MIN_DEME_SIZE} individuals at some time"),
+            );
+        }
+        match *m {
+            DemeModel::Kingman { mean, scale, .. } => {
+                let look = lookback_scale(d.dormancy());
+                if mean.max(look) > MAX_LOOKBACK_FRACTION * n {
+                    return (
+                        EngineKind::Exact,
+                        format!(
+                            "exact engine: deme `{name}`: look-back (mean {mean:.3}, scale {look}) exceeds N/10 = {:.0}",
+                            MAX_LOOKBACK_FRACTION * n
+                        ),
+                    );
+                }
+                parts.push(format!("`{name}` Kingman with time change E[R]^2/d = {scale:.4}"));
+            }
+            DemeModel::SeedBank { c, k, .. } => {
+                if c > MAX_SWITCH_RATE {
+                    return (
+                        EngineKind::Exact,
+                        format!("exact engine: deme `{name}`: seed-bank switching rate c = {c:.3} > {MAX_SWITCH_RATE}"),
+                    );
+                }
+                parts.push(format!("`{name}` seed-bank coalescent c = {c:.4}, K = {k:.4}"));
+            }
+        }
+    }
+    let mig = if scenario.migration().is_active() { "; structured coalescent for migration" } else { "" };
+    (
+        EngineKind::Approx,
+        format!(
+            "approximate engine: N >= {MIN_DEME_SIZE} and look-back <= N/10 in every deme: {}{mig}",
+            parts.join("; ")
+        ),
+    )
+}
+
+/// Resolves a user's choice: `exact` always runs; `approx` runs when every deme has a limit
+/// model (an error otherwise; the reason notes when `auto` would pick exact); `auto` is
+/// [`choose`].
+pub fn resolve(choice: EngineChoice, scenario: &Scenario) -> Result<EngineDecision, ApproxError> {
+    Ok(match choice {
+        EngineChoice::Exact => {
+            EngineDecision { kind: EngineKind::Exact, reason: "exact engine (requested)".to_string() }
+        }
+        EngineChoice::Approx => {
+            deme_models(scenario)?;
+            let reason = match choose(scenario) {
+                (EngineKind::Approx, why) => format!("{why} (requested)"),
+                (EngineKind::Exact, why) => {
+                    format!("approximate engine (requested) outside its accuracy range; auto would pick {why}")
+                }
+            };
+            EngineDecision { kind: EngineKind::Approx, reason }
+        }
+        EngineChoice::Auto => {
+            let (kind, reason) = choose(scenario);
+            EngineDecision { kind, reason }
+        }
+    })
+}
+
+/// Simulates one genealogy with the approximate engine (builds the model each call).
+///
+/// Errors when a deme is outside the engine's domain (see [`DemeModel::of`]).
+pub fn simulate_approx<R: Rng + ?Sized>(scenario: &Scenario, rng: &mut R) -> Result<Genealogy, ApproxError> {
+    Ok(ApproxModel::new(scenario)?.simulate(rng))
+}
+
+/// An Exp(1) draw.
+#[inline(always)]
+fn exp1<R: Rng + ?Sized>(rng: &mut R) -> f64 {
+    Distribution::<f64>::sample(&Exp1, rng)
+}
+
+/// A migration epoch as per-generation rates of active lineages.
+#[derive(Debug, Clone)]
+struct MigEpoch {
+    end: f64,
+    /// out[d] = total rate (per generation) of leaving deme d for an active lineage.
+    out: Vec<f64>,
+    /// rows[d] = cumulative off-diagonal rates with their target demes.
+    rows: Vec<Vec<(f64, usize)>>,
+}
+
+/// The approximate engine for one scenario, built once and reused across replicates.
+#[derive(Debug, Clone)]
+pub struct ApproxModel<'a> {
+    scenario: &'a Scenario,
+    demes: Vec<DemeModel>,
+    sizes: Vec<&'a [SizeEpoch]>,
+    /// Constant size per deme when it never changes (fast path).
+    constant: Vec<Option<f64>>,
+    mig: Vec<MigEpoch>,
+    migrates: bool,
+    horizon: f64,
+    /// (E[R], scale, N) when the plain Kingman fast path applies.
+    plain: Option<(f64, f64, f64)>,
+}
+
+/// One live lineage.
+#[derive(Debug, Clone, Copy)]
+struct Lin {
+    node: u32,
+    node_time: u64,
+    /// Deme (for a dormant lineage: the deme it wakes in).
+    deme: usize,
+    dormant: bool,
+    wake: f64,
+    /// Expected links since `node`, accrued up to `since`.
+    links: f64,
+    since: f64,
+    /// Position in its list (active[deme] or dormant).
+    slot: usize,
+}
+
+/// Live lineages: per-deme active lists and one dormant list, O(1) pick and removal.
+struct State {
+    lins: Vec<Lin>,
+    active: Vec<Vec<usize>>,
+    dormant: Vec<usize>,
+    wake_total: f64,
+}
+
+impl State {
+    fn add(&mut self, mut l: Lin) -> usize {
+        let id = self.lins.len();
+        let list = if l.dormant { &mut self.dormant } else { &mut self.active[l.deme] };
+        l.slot = list.len();
+        list.push(id);
+        if l.dormant {
+            self.wake_total += l.wake;
+        }
+        self.lins.push(l);
+        id
+    }
+
+    fn remove(&mut self, id: usize) {
+        let l = self.lins[id];
+        let list = if l.dormant { &mut self.dormant } else { &mut self.active[l.deme] };
+        list.swap_remove(l.slot);
+        if let Some(&moved) = list.get(l.slot) {
+            self.lins[moved].slot = l.slot;
+        }
+        if l.dormant {
+            self.wake_total = if self.dormant.is_empty() { 0.0 } else { self.wake_total - l.wake };
+        }
+    }
+
+    fn live(&self) -> usize {
+        self.active.iter().map(Vec::len).sum::<usize>() + self.dormant.len()
+    }
+}
+
+impl<'a> ApproxModel<'a> {
+    /// Builds the model; errors when a deme is outside the domain (see [`DemeModel::of`]).
+    pub fn new(scenario: &'a Scenario) -> Result<Self, ApproxError> {
+        let demes = deme_models(scenario)?;
+        let sizes: Vec<&[SizeEpoch]> = scenario.demes().iter().map(|d| d.size().epochs()).collect();
+        let constant: Vec<Option<f64>> =
+            sizes.iter().map(|e| (e.len() == 1 && e[0].growth == 0.0).then_some(e[0].size)).collect();
+        let mig = scenario
+            .migration()
+            .epochs()
+            .iter()
+            .map(|ep| {
+                let m = ep.matrix();
+                let mut out = Vec::with_capacity(m.len());
+                let mut rows = Vec::with_capacity(m.len());
+                for (d, row) in m.iter().enumerate() {
+                    let lr = demes[d].link_rate();
+                    let mut acc = 0.0;
+                    let cum: Vec<(f64, usize)> = row
+                        .iter()
+                        .enumerate()
+                        .filter(|&(e, &p)| e != d && p > 0.0)
+                        .map(|(e, &p)| {
+                            acc += p * lr;
+                            (acc, e)
+                        })
+                        .collect();
+                    out.push(acc);
+                    rows.push(cum);
+                }
+                MigEpoch { end: if ep.end() == u64::MAX { f64::INFINITY } else { ep.end() as f64 }, out, rows }
+            })
+            .collect();
+        let samples = scenario.samples();
+        let plain = match (demes.as_slice(), constant.as_slice()) {
+            ([DemeModel::Kingman { mean, scale, .. }], [Some(size)])
+                if samples.iter().all(|x| x.kind == SampleKind::Population && x.time == samples[0].time) =>
+            {
+                Some((*mean, *scale, *size))
+            }
+            _ => None,
+        };
+        Ok(ApproxModel {
+            scenario,
+            plain,
+            demes,
+            sizes,
+            constant,
+            mig,
+            migrates: scenario.migration().is_active(),
+            horizon: scenario.horizon() as f64,
+        })
+    }
+
+    /// The limit model of each deme.
+    pub fn demes(&self) -> &[DemeModel] {
+        &self.demes
+    }
+
+    /// First time in [t, ∞) at which a deme with pair rate `rate` (pairs / s) coalesces, given
+    /// an Exp(1) variable `e`: inverts the integrated hazard ∫ rate / N(u) du epoch by epoch.
+    ///
+    /// ```text
+    /// constant N:      Δ = e N / rate
+    /// N(u) = N(t) e^{-g (u - t)}:   H(Δ) = rate (e^{g Δ} - 1) / (g N(t)),   Δ = ln(1 + e g N(t) / rate) / g
+    /// ```
+    /// (g < 0 can leave the hazard bounded: then the next epoch, or never.)
+    fn coal_time(&self, deme: usize, t: f64, rate: f64, mut e: f64) -> f64 {
+        if let Some(n) = self.constant[deme] {
+            return t + e * n / rate;
+        }
+        let epochs = self.sizes[deme];
+        let mut idx = epochs.partition_point(|ep| ep.start as f64 <= t).max(1) - 1;
+        let mut t = t;
+        loop {
+            let ep = &epochs[idx];
+            let end = epochs.get(idx + 1).map_or(f64::INFINITY, |x| x.start as f64);
+            let g = ep.growth;
+            let n_t = ep.size * (-g * (t - ep.start as f64)).exp();
+            if g == 0.0 {
+                let dt = e * n_t / rate;
+                if t + dt < end {
+                    return t + dt;
+                }
+                e -= (end - t) * rate / n_t;
+            } else {
+                let x = e * g * n_t / rate;
+                if x > -1.0 {
+                    let dt = x.ln_1p() / g;
+                    if t + dt < end {
+                        return t + dt;
+                    }
+                }
+                if end.is_infinite() {
+                    return f64::INFINITY;
+                }
+                e -= rate * (g * (end - t)).exp_m1() / (g * n_t);
+            }
+            e = e.max(0.0);
+            t = end;
+            idx += 1;
+        }
+    }
+
+    /// Brings a lineage's expected link count up to time t.
+    #[inline]
+    fn accrue(&self, l: &mut Lin, t: f64) {
+        if !l.dormant {
+            l.links += (t - l.since) * self.demes[l.deme].link_rate();
+        }
+        l.since = t;
+    }
+
+    fn mig_index(&self, t: f64) -> usize {
+        if self.mig.len() == 1 { 0 } else { self.mig.partition_point(|e| e.end <= t).min(self.mig.len() - 1) }
+    }
+
+    /// The deme a lineage of deme `d` lands in for one link at time t (full row of M).
+    fn link_deme<R: Rng + ?Sized>(&self, d: usize, t: f64, rng: &mut R) -> usize {
+        if self.migrates { self.scenario.migration().parent_deme(d, t as u64, rng) } else { d }
+    }
+
+    /// Entry (time, lineage) of each sample, drawing seed ages where needed.
+    fn entries<R: Rng + ?Sized>(&self, g: &mut Genealogy, rng: &mut R) -> Vec<(f64, Lin)> {
+        let mut out = Vec::with_capacity(self.scenario.samples().len());
+        for (i, s) in self.scenario.samples().iter().enumerate() {
+            let node = g.add_node(Node { time: s.time, deme: s.deme, sample: Some(i as u32) });
+            let t = s.time as f64;
+            let base =
+                Lin { node, node_time: s.time, deme: s.deme, dormant: false, wake: 0.0, links: 0.0, since: t, slot: 0 };
+            let entry = match (s.kind, self.demes[s.deme]) {
+                (SampleKind::Population, _) => (t, base),
+                (SampleKind::Seedbank, DemeModel::Kingman { .. }) => {
+                    let age = self.scenario.seed_age(s.deme, s.time).map_or(0, |a| a.sample(rng));
+                    let to = self.link_deme(s.deme, t, rng);
+                    let at = t + age as f64 + 1.0;
+                    (at, Lin { deme: to, links: 1.0, since: at, ..base })
+                }
+                (SampleKind::Seedbank, DemeModel::SeedBank { wake, dormant_seed, .. }) => {
+                    let to = self.link_deme(s.deme, t, rng);
+                    if rng.random::<f64>() < dormant_seed {
+                        (t, Lin { deme: to, dormant: true, wake, links: 1.0, ..base })
+                    } else {
+                        (t + 1.0, Lin { deme: to, links: 1.0, since: t + 1.0, ..base })
+                    }
+                }
+            };
+            out.push(entry);
+        }
+        // Stable: equal times keep sample order. Usually already sorted (all at time 0).
+        if !out.is_sorted_by(|a, b| a.0 <= b.0) {
+            out.sort_by(|a, b| a.0.total_cmp(&b.0));
+        }
+        out
+    }
+
+    /// Simulates one genealogy, drawing only from `rng`.
+    pub fn simulate<R: Rng + ?Sized>(&self, rng: &mut R) -> Genealogy {
+        if let Some((mean, scale, size)) = self.plain {
+            return self.simulate_plain(mean, scale, size, rng);
+        }
+        let n_demes = self.demes.len();
+        let mut g = Genealogy::with_samples(self.scenario.samples().len());
+        let entries = self.entries(&mut g, rng);
+        let n = entries.len();
+        let mut st = State {
+            lins: Vec::with_capacity(2 * n),
+            active: (0..n_demes).map(|_| Vec::with_capacity(if n_demes == 1 { n } else { 0 })).collect(),
+            dormant: Vec::new(),
+            wake_total: 0.0,
+        };
+        let mut next = 0;
+        let mut steps = 0u64;
+        let mut t = entries.first().map_or(0.0, |e| e.0);
+        loop {
+            while next < entries.len() && entries[next].0 <= t {
+                st.add(entries[next].1);
+                next += 1;
+            }
+            if next == entries.len() && st.live() <= 1 {
+                break;
+            }
+            let mi = self.mig_index(t);
+            let mig = &self.mig[mi];
+            let mut bp = entries.get(next).map_or(f64::INFINITY, |e| e.0);
+            if self.migrates {
+                bp = bp.min(mig.end);
+            }
+            // Coalescence: the earliest of the demes' candidate times.
+            let (mut tc, mut cd) = (f64::INFINITY, 0);
+            for d in 0..n_demes {
+                let k = st.active[d].len();
+                if k >= 2 {
+                    let rate = (k * (k - 1) / 2) as f64 / self.demes[d].coal_scale();
+                    let c = self.coal_time(d, t, rate, exp1(rng));
+                    if c < tc {
+                        (tc, cd) = (c, d);
+                    }
+                }
+            }
+            // Migration, sleeping and waking: constant rates until the next breakpoint.
+            let mut other = st.wake_total.max(0.0);
+            for d in 0..n_demes {
+                let k = st.active[d].len() as f64;
+                let sleep = if let DemeModel::SeedBank { sleep, .. } = self.demes[d] { sleep } else { 0.0 };
+                other += k * (mig.out[d] + sleep);
+            }
+            let to = if other > 0.0 { t + exp1(rng) / other } else { f64::INFINITY };
+            let tn = tc.min(to);
+            if tn >= bp {
+                if bp > self.horizon {
+                    break;
+                }
+                t = bp;
+                continue;
+            }
+            if tn > self.horizon {
+                break;
+            }
+            t = tn;
+            steps += 1;
+            if tc <= to {
+                self.coalesce(&mut st, &mut g, cd, t, rng);
+            } else {
+                self.switch(&mut st, mig, other * rng.random::<f64>(), t, rng);
+            }
+        }
+        for d in 0..n_demes {
+            for &id in &st.active[d] {
+                g.add_root(st.lins[id].node);
+            }
+        }
+        for &id in &st.dormant {
+            g.add_root(st.lins[id].node);
+        }
+        for e in &entries[next..] {
+            g.add_root(e.1.node);
+        }
+        g.sort_roots();
+        g.set_steps(steps);
+        g
+    }
+
+    /// Fast path for one deme of constant size under Kingman with every sample taken from the
+    /// population at one time: the plain Kingman loop (the general loop gives the same law).
+    fn simulate_plain<R: Rng + ?Sized>(&self, mean: f64, scale: f64, size: f64, rng: &mut R) -> Genealogy {
+        let samples = self.scenario.samples();
+        let mut g = Genealogy::with_samples(samples.len());
+        let t0 = samples[0].time;
+        let mut live: Vec<(u32, u64)> = Vec::with_capacity(samples.len());
+        for i in 0..samples.len() {
+            live.push((g.add_node(Node { time: t0, deme: 0, sample: Some(i as u32) }), t0));
+        }
+        let mut t = t0 as f64;
+        let mut steps = 0;
+        let sn = scale * size;
+        while live.len() > 1 {
+            let k = live.len();
+            t += exp1(rng) * sn / (k * (k - 1) / 2) as f64;
+            if t > self.horizon {
+                break;
+            }
+            steps += 1;
+            let i = rng.random_range(0..k);
+            let (na, ta) = live.swap_remove(i);
+            let j = rng.random_range(0..k - 1);
+            let (nb, tb) = live[j];
+            // t >= 0, so adding 1/2 and truncating rounds to the nearest generation.
+            let time = ((t + 0.5) as u64).max(ta.max(tb) + 1);
+            let node = g.add_node(Node { time, deme: 0, sample: None });
+            for (c, tc) in [(na, ta), (nb, tb)] {
+                let len = time - tc;
+                g.add_edge(node, c, ((len as f64 / mean + 0.5) as u64).clamp(1, len));
+            }
+            live[j] = (node, time);
+        }
+        for &(node, _) in &live {
+            g.add_root(node);
+        }
+        g.sort_roots();
+        g.set_steps(steps);
+        g
+    }
+
+    /// Merges two random active lineages of deme d at time t.
+    fn coalesce<R: Rng + ?Sized>(&self, st: &mut State, g: &mut Genealogy, d: usize, t: f64, rng: &mut R) {
+        let k = st.active[d].len();
+        let i = rng.random_range(0..k);
+        let mut j = rng.random_range(0..k - 1);
+        if j >= i {
+            j += 1;
+        }
+        let (a, b) = (st.active[d][i], st.active[d][j]);
+        let (mut la, mut lb) = (st.lins[a], st.lins[b]);
+        self.accrue(&mut la, t);
+        self.accrue(&mut lb, t);
+        let time = (t.round().max(0.0) as u64).max(la.node_time.max(lb.node_time) + 1);
+        let node = g.add_node(Node { time, deme: d, sample: None });
+        for l in [la, lb] {
+            let len = time - l.node_time;
+            g.add_edge(node, l.node, (l.links.round().max(1.0) as u64).min(len));
+        }
+        st.remove(a);
+        st.remove(b);
+        st.add(Lin { node, node_time: time, deme: d, dormant: false, wake: 0.0, links: 0.0, since: t, slot: 0 });
+    }
+
+    /// Carries out the constant-rate event selected by `u` in [0, total rate).
+    fn switch<R: Rng + ?Sized>(&self, st: &mut State, mig: &MigEpoch, mut u: f64, t: f64, rng: &mut R) {
+        // Waking.
+        if u < st.wake_total {
+            let mut pick = *st.dormant.last().expect("a positive wake rate needs a dormant lineage");
+            for &id in &st.dormant {
+                if u < st.lins[id].wake {
+                    pick = id;
+                    break;
+                }
+                u -= st.lins[id].wake;
+            }
+            st.remove(pick);
+            let mut l = st.lins[pick];
+            l.dormant = false;
+            l.since = t;
+            l.wake = 0.0;
+            st.lins[pick] = l;
+            let list = &mut st.active[l.deme];
+            st.lins[pick].slot = list.len();
+            list.push(pick);
+            return;
+        }
+        u -= st.wake_total.max(0.0);
+        for d in 0..self.demes.len() {
+            let k = st.active[d].len();
+            if k == 0 {
+                continue;
+            }
+            let sleep = if let DemeModel::SeedBank { sleep, .. } = self.demes[d] { sleep } else { 0.0 };
+            let per = mig.out[d] + sleep;
+            let total = k as f64 * per;
+            if u >= total && d + 1 < self.demes.len() {
+                u -= total;
+                continue;
+            }
+            let which = ((u / per) as usize).min(k - 1);
+            let r = u - which as f64 * per;
+            let id = st.active[d][which];
+            st.remove(id);
+            let mut l = st.lins[id];
+            self.accrue(&mut l, t);
+            if r < mig.out[d] {
+                let row = &mig.rows[d];
+                l.deme = row.iter().find(|&&(c, _)| r < c).or(row.last()).map_or(d, |&(_, e)| e);
+            } else if let DemeModel::SeedBank { wake, .. } = self.demes[d] {
+                // One long link: its destination is drawn now, with the full row of M.
+                l.links += 1.0;
+                l.deme = self.link_deme(d, t, rng);
+                l.dormant = true;
+                l.wake = wake;
+            }
+            // Re-file the lineage under its new state.
+            let list = if l.dormant { &mut st.dormant } else { &mut st.active[l.deme] };
+            l.slot = list.len();
+            list.push(id);
+            if l.dormant {
+                st.wake_total += l.wake;
+            }
+            st.lins[id] = l;
+            return;
+        }
+    }
+}
+
+#[cfg(test)]
+mod tests;
