@@ -104,6 +104,59 @@ enum Command {
         #[arg(long, default_value = "pm1", value_parser = ["pm1", "normal"])]
         colours: String,
     },
+    /// Build a null distribution of the statistics in chunks (resumable, shardable)
+    #[command(after_help = NULL_EXAMPLES)]
+    Null {
+        /// Scenario file (YAML) with a mutation model
+        scenario: PathBuf,
+        /// Total number of replicates B (over all shards)
+        #[arg(long)]
+        replicates: u64,
+        /// Run only the replicates i with i mod K == I
+        #[arg(long, value_name = "I/K", default_value = "0/1")]
+        shard: String,
+        /// Output directory (rerun the same command in it to resume)
+        #[arg(long, default_value = "seedline-null")]
+        out: PathBuf,
+        /// Take the sample sizes per deme and time from an `observe` result
+        #[arg(long, value_name = "OBSERVED.json")]
+        like: Option<PathBuf>,
+        /// Place exactly the observed number of segregating sites (needs --like)
+        #[arg(long, requires = "like")]
+        condition_on_s: bool,
+        /// Replicates per chunk file
+        #[arg(long, default_value_t = 1000)]
+        chunk: u64,
+        /// Stop after this many new chunks (a rerun continues)
+        #[arg(long)]
+        max_chunks: Option<u64>,
+        /// Master seed (overrides the file)
+        #[arg(long)]
+        seed: Option<u64>,
+        /// Worker threads (0 = one per core)
+        #[arg(long, default_value_t = 0)]
+        threads: usize,
+    },
+    /// Merge the directories of null shards into one null.tsv
+    Merge {
+        /// Shard directories
+        #[arg(required = true)]
+        dirs: Vec<PathBuf>,
+        /// Output directory
+        #[arg(long)]
+        out: PathBuf,
+    },
+    /// Test observed statistics against a null distribution
+    Test {
+        /// observed.json written by `seedline observe`
+        observed: PathBuf,
+        /// Null run directory (merged or not)
+        #[arg(long)]
+        null: PathBuf,
+        /// Output directory for test.tsv, test.json and figures/
+        #[arg(long, default_value = "seedline-test")]
+        out: PathBuf,
+    },
     /// Check a scenario file and print it as parsed, without simulating
     #[command(after_help = EXAMPLES)]
     Validate {
@@ -111,6 +164,15 @@ enum Command {
         scenario: Option<PathBuf>,
     },
 }
+
+const NULL_EXAMPLES: &str = "Examples:
+  seedline null scenarios/lake-resting-eggs.yaml --replicates 10000 --out null/lake
+  seedline null H0.yaml --replicates 100000 --shard 3/8 --out null/shard3    (one of 8 cluster jobs)
+  seedline merge null/shard* --out null/all
+  seedline null H0.yaml --replicates 5000 --like observed/observed.json --out null/like
+  seedline test observed/observed.json --null null/like --out test
+
+Rerunning the same command in the same --out resumes after the last complete chunk.";
 
 /// Marks an error as the user's input being wrong (exit code 2).
 #[derive(Debug, thiserror::Error)]
@@ -217,6 +279,67 @@ fn run(cli: Cli) -> Result<()> {
             families::write_to_dir(&report, &out)?;
             print!("{}", families::render_summary(&report));
             println!("wrote {}", families::FILES.map(|f| out.join(f).display().to_string()).join(", "));
+            Ok(())
+        }
+        Command::Null { scenario, replicates, shard, out, like, condition_on_s, chunk, max_chunks, seed, threads } => {
+            use seedline::null;
+            let shard = null::parse_shard(&shard).map_err(|e| BadInput(format!("{e:#}")))?;
+            let (mut raw, origin) = load_raw(Some(&scenario))?;
+            raw.seed = seed.or(raw.seed);
+            let observed = match &like {
+                Some(p) => Some(null::load_observed(p).map_err(|e| BadInput(format!("{e:#}")))?),
+                None => None,
+            };
+            if let Some(o) = &observed {
+                null::like(&mut raw, o, &origin).map_err(|e| BadInput(format!("{e:#}")))?;
+            }
+            let scenario = Scenario::from_raw(raw, &origin)?;
+            let count = match (&observed, condition_on_s) {
+                (Some(o), true) => {
+                    let s = o.statistics.iter().find(|(k, _)| k == "segregating_sites").and_then(|(_, v)| *v);
+                    let s = s.ok_or_else(|| BadInput("the observed data have no segregating_sites".into()))?;
+                    seedline::mutation::Count::Fixed(s.round() as u64)
+                }
+                _ => seedline::mutation::Count::Poisson,
+            };
+            let cfg = null::NullConfig { replicates, shard, chunk, count, max_new_chunks: max_chunks };
+            let shard_reps = (0..replicates).filter(|i| i % shard.1 == shard.0).count() as u64;
+            let bar = progress_bar(shard_reps);
+            let report = null::run(&scenario, cfg, BatchConfig { threads, ..BatchConfig::default() }, &out, &|d| {
+                bar.set_position(d)
+            })?;
+            bar.finish_and_clear();
+            println!(
+                "{} of {} chunks complete in {} ({} resumed, {} written now); shard {}/{} holds {} replicates",
+                report.resumed_chunks + report.written_chunks,
+                report.total_chunks,
+                out.display(),
+                report.resumed_chunks,
+                report.written_chunks,
+                shard.0,
+                shard.1,
+                report.shard_replicates
+            );
+            Ok(())
+        }
+        Command::Merge { dirs, out } => {
+            let n = seedline::null::merge(&dirs, &out).map_err(|e| BadInput(format!("{e:#}")))?;
+            println!("merged {n} replicates into {}", out.join("null.tsv").display());
+            Ok(())
+        }
+        Command::Test { observed, null, out } => {
+            use seedline::null as nl;
+            let obs = nl::load_observed(&observed).map_err(|e| BadInput(format!("{e:#}")))?;
+            let table = nl::load(&null).map_err(|e| BadInput(format!("{e:#}")))?;
+            let report = nl::test(&obs, &table)?;
+            nl::write_test(&report, &table, &out)?;
+            print!("{}", nl::render_test(&report));
+            println!(
+                "wrote {}, {}, {}",
+                out.join("test.tsv").display(),
+                out.join("test.json").display(),
+                out.join("figures").display()
+            );
             Ok(())
         }
         Command::Validate { scenario } => {

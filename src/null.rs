@@ -47,6 +47,14 @@ pub struct Manifest {
     pub columns: Vec<String>,
 }
 
+/// A directory holds a null run made with other settings: resuming it would mix two nulls.
+#[derive(Debug, thiserror::Error)]
+#[error("{} holds a null run with other settings (scenario, seed, replicates, shard, chunk or mutations differ): use another --out", dir.display())]
+pub struct SettingsMismatch {
+    /// The directory.
+    pub dir: PathBuf,
+}
+
 /// Settings of a null run.
 #[derive(Debug, Clone, Copy)]
 pub struct NullConfig {
@@ -125,10 +133,7 @@ pub fn run(
         let old: Manifest = serde_json::from_str(&fs::read_to_string(&mpath)?)
             .with_context(|| format!("reading {}", mpath.display()))?;
         if old != manifest {
-            bail!(
-                "{} holds a null run with other settings (scenario, seed, replicates, shard, chunk or mutations differ): use another --out",
-                dir.display()
-            );
+            return Err(SettingsMismatch { dir: dir.to_path_buf() }.into());
         }
     } else {
         write_atomic(&mpath, serde_json::to_string_pretty(&manifest)?.as_bytes())?;
@@ -343,4 +348,256 @@ pub fn merge(dirs: &[PathBuf], out: &Path) -> Result<u64> {
     let merged = Manifest { shard: 0, shards: 1, chunk: first.replicates.max(1), ..first };
     write_atomic(&out.join("null.json"), serde_json::to_string_pretty(&merged)?.as_bytes())?;
     Ok(have)
+}
+
+/// Observed statistics as read from `observed.json` (written by `seedline observe`).
+#[derive(Debug, Clone)]
+pub struct ObservedData {
+    /// Statistic name to value (`None` when undefined).
+    pub statistics: Vec<(String, Option<f64>)>,
+    /// Unfolded SFS, when polarised.
+    pub xi: Option<Vec<f64>>,
+    /// Folded SFS.
+    pub eta: Option<Vec<f64>>,
+    /// Sampling design: (deme, generations ago, sequences).
+    pub design: Vec<(String, u64, u64)>,
+}
+
+/// Reads `observed.json`; also accepts a plain `{"statistics": {...}}` object.
+pub fn load_observed(path: &Path) -> Result<ObservedData> {
+    let text = fs::read_to_string(path).with_context(|| format!("reading {}", path.display()))?;
+    let v: serde_json::Value =
+        serde_json::from_str(&text).with_context(|| format!("{} is not JSON", path.display()))?;
+    let stats = v.get("statistics").and_then(|s| s.as_object()).with_context(|| {
+        format!("{}: no `statistics` object (expected the observed.json written by `seedline observe`)", path.display())
+    })?;
+    let columns: Vec<String> = match v.get("columns").and_then(|c| c.as_array()) {
+        Some(c) => c.iter().filter_map(|x| x.as_str().map(String::from)).collect(),
+        None => stats.keys().cloned().collect(),
+    };
+    let statistics = columns.iter().map(|c| (c.clone(), stats.get(c).and_then(|x| x.as_f64()))).collect();
+    let spectrum = |key: &str| -> Option<Vec<f64>> {
+        v.get(key).and_then(|x| x.as_array()).map(|a| a.iter().filter_map(|x| x.as_f64()).collect())
+    };
+    let mut design = Vec::new();
+    if let Some(d) = v.get("design").and_then(|d| d.as_array()) {
+        for (i, e) in d.iter().enumerate() {
+            let deme = e.get("deme").and_then(|x| x.as_str());
+            let t = e.get("generations_ago").and_then(|x| x.as_u64());
+            let n = e.get("sequences").and_then(|x| x.as_u64());
+            match (deme, t, n) {
+                (Some(d), Some(t), Some(n)) => design.push((d.to_string(), t, n)),
+                _ => bail!("{}: design[{i}] needs deme, generations_ago and sequences", path.display()),
+            }
+        }
+    }
+    Ok(ObservedData { statistics, xi: spectrum("xi"), eta: spectrum("eta"), design })
+}
+
+/// Replaces the scenario's samples by the observed sampling design (`--like`): one sample
+/// group per (deme, time) with the observed number of sequences.
+pub fn like(raw: &mut crate::scenario::RawScenario, observed: &ObservedData, origin: &str) -> Result<()> {
+    ensure!(!observed.design.is_empty(), "{origin}: the observed data have no sampling design");
+    let loc = serde_saphyr::Location::UNKNOWN;
+    raw.samples = observed
+        .design
+        .iter()
+        .filter(|(_, _, n)| *n > 0)
+        .map(|(deme, t, n)| {
+            serde_saphyr::Spanned::new(
+                crate::scenario::raw::RawSample {
+                    deme: deme.clone(),
+                    count: Some(*n),
+                    generations_ago: Some(*t as f64),
+                    block: None,
+                    from: None,
+                },
+                loc,
+                loc,
+            )
+        })
+        .collect();
+    Ok(())
+}
+
+/// One statistic of the observed data against its null distribution.
+#[derive(Debug, Clone, Serialize)]
+pub struct StatTest {
+    /// Statistic name.
+    pub statistic: String,
+    /// Observed value.
+    pub observed: Option<f64>,
+    /// Null replicates where the statistic is defined.
+    pub null_replicates: usize,
+    /// Null mean.
+    pub null_mean: Option<f64>,
+    /// Null 2.5% quantile.
+    pub null_low: Option<f64>,
+    /// Null 97.5% quantile.
+    pub null_high: Option<f64>,
+    /// Two-sided empirical p-value.
+    pub p_value: Option<f64>,
+}
+
+/// Two-sided empirical p-value of `obs` among `null` values:
+///
+/// ```text
+/// p = min(1, 2 min(r_low + 1, r_high + 1) / (B + 1)),
+/// r_low = #{x <= obs},  r_high = #{x >= obs}
+/// ```
+/// Each one-sided value (r + 1)/(B + 1) counts the observation as one more draw from the
+/// null (Davison & Hinkley 1997, Bootstrap Methods, §4.2); doubling the smaller is the usual
+/// two-sided form.
+pub fn empirical_p(obs: f64, null: &[f64]) -> f64 {
+    let b = null.len() as f64;
+    let low = null.iter().filter(|&&x| x <= obs).count() as f64;
+    let high = null.iter().filter(|&&x| x >= obs).count() as f64;
+    (2.0 * (low + 1.0).min(high + 1.0) / (b + 1.0)).min(1.0)
+}
+
+/// The SFS goodness-of-fit statistic: a chi-square distance of a spectrum to the null's
+/// mean spectrum m, G = Σ_i (x_i - m_i)² / m_i over classes with m_i > 0. Its p-value
+/// comes from the same statistic computed for every null replicate (one-sided, large G
+/// is a poor fit): (#{G_null >= G_obs} + 1)/(B + 1).
+pub fn sfs_distance(x: &[f64], mean: &[f64]) -> f64 {
+    x.iter().zip(mean).filter(|(_, m)| **m > 0.0).map(|(a, m)| (a - m).powi(2) / m).sum()
+}
+
+/// Folded spectrum η_i = ξ_i + ξ_{n-i} (i < n/2), η_{n/2} = ξ_{n/2}, from ξ_1..ξ_{n-1}.
+pub fn fold(xi: &[f64]) -> Vec<f64> {
+    let n = xi.len() + 1;
+    (1..=n / 2).map(|i| if 2 * i == n { xi[i - 1] } else { xi[i - 1] + xi[n - i - 1] }).collect()
+}
+
+/// The observed data against a null distribution: every statistic, and the SFS fit.
+#[derive(Debug, Clone, Serialize)]
+pub struct TestReport {
+    /// One line per statistic present in both.
+    pub statistics: Vec<StatTest>,
+    /// SFS goodness of fit: which spectrum (`unfolded`/`folded`), G observed, p-value.
+    pub sfs_fit: Option<(String, f64, f64)>,
+    /// Null replicates.
+    pub replicates: usize,
+    /// Notes.
+    pub notes: Vec<String>,
+}
+
+/// Tests the observed statistics against the null table.
+pub fn test(observed: &ObservedData, null: &NullTable) -> Result<TestReport> {
+    let mut notes = Vec::new();
+    let mut statistics = Vec::new();
+    for (name, obs) in &observed.statistics {
+        let Some(col) = null.column(name) else {
+            notes.push(format!("{name}: not in the null distribution (different demes?)"));
+            continue;
+        };
+        let mut xs: Vec<f64> = col.into_iter().flatten().collect();
+        xs.sort_by(f64::total_cmp);
+        let summary = crate::report::ColumnSummary::new(&xs.iter().map(|x| Some(*x)).collect::<Vec<_>>());
+        statistics.push(StatTest {
+            statistic: name.clone(),
+            observed: *obs,
+            null_replicates: xs.len(),
+            null_mean: summary.mean,
+            null_low: summary.quantiles.map(|q| q[0]),
+            null_high: summary.quantiles.map(|q| q[4]),
+            p_value: obs.filter(|_| !xs.is_empty()).map(|o| empirical_p(o, &xs)),
+        });
+    }
+    let xi_cols: Vec<Vec<f64>> = (1..)
+        .map_while(|i| null.column(&format!("xi_{i}")))
+        .map(|c| c.into_iter().map(|x| x.unwrap_or(0.0)).collect())
+        .collect();
+    let b = null.rows.len();
+    let mut sfs_fit = None;
+    if !xi_cols.is_empty() && b > 0 {
+        let rows: Vec<Vec<f64>> = (0..b).map(|r| xi_cols.iter().map(|c| c[r]).collect()).collect();
+        let (kind, obs, rows) = match (&observed.xi, &observed.eta) {
+            (Some(xi), _) if xi.len() == xi_cols.len() => ("unfolded", xi.clone(), rows),
+            (_, Some(eta)) if eta.len() == (xi_cols.len() + 1) / 2 => {
+                ("folded", eta.clone(), rows.iter().map(|r| fold(r)).collect())
+            }
+            _ => {
+                notes.push(format!(
+                    "SFS fit skipped: the observed spectrum has another sample size than the null ({} sequences); use `null --like`",
+                    xi_cols.len() + 1
+                ));
+                ("", Vec::new(), Vec::new())
+            }
+        };
+        if !obs.is_empty() {
+            let k = obs.len();
+            let mean: Vec<f64> = (0..k).map(|i| rows.iter().map(|r| r[i]).sum::<f64>() / b as f64).collect();
+            let g_obs = sfs_distance(&obs, &mean);
+            let g_null: Vec<f64> = rows.iter().map(|r| sfs_distance(r, &mean)).collect();
+            let r = g_null.iter().filter(|&&g| g >= g_obs).count() as f64;
+            sfs_fit = Some((kind.to_string(), g_obs, (r + 1.0) / (b as f64 + 1.0)));
+        }
+    }
+    Ok(TestReport { statistics, sfs_fit, replicates: b, notes })
+}
+
+/// Renders the test table for the terminal.
+pub fn render_test(r: &TestReport) -> String {
+    use crate::report::fmt_num;
+    let f = |x: Option<f64>| x.map_or("-".to_string(), fmt_num);
+    let mut s =
+        format!("observed against {} null replicates (two-sided empirical p-values, (r+1)/(B+1))\n", r.replicates);
+    s.push_str(&format!(
+        "{:<20} {:>12} {:>12} {:>12} {:>12} {:>9}\n",
+        "statistic", "observed", "null mean", "null 2.5%", "null 97.5%", "p"
+    ));
+    for t in &r.statistics {
+        s.push_str(&format!(
+            "{:<20} {:>12} {:>12} {:>12} {:>12} {:>9}\n",
+            t.statistic,
+            f(t.observed),
+            f(t.null_mean),
+            f(t.null_low),
+            f(t.null_high),
+            f(t.p_value)
+        ));
+    }
+    if let Some((kind, g, p)) = &r.sfs_fit {
+        s.push_str(&format!(
+            "SFS fit ({kind} spectrum, chi-square distance to the null mean): G = {}, p = {}\n",
+            fmt_num(*g),
+            fmt_num(*p)
+        ));
+    }
+    for n in &r.notes {
+        s.push_str(&format!("note: {n}\n"));
+    }
+    s.push_str("A p-value measures surprise under this one null model (neutral, haploid, one non-recombining locus unless stated); it is not the probability that the hypothesis is true.\n");
+    s
+}
+
+/// Writes `test.tsv`, `test.json` and one SVG histogram per statistic into `dir`.
+pub fn write_test(r: &TestReport, null: &NullTable, dir: &Path) -> Result<()> {
+    fs::create_dir_all(dir.join("figures"))?;
+    let mut tsv =
+        String::from("statistic\tobserved\tnull_replicates\tnull_mean\tnull_low_2.5\tnull_high_97.5\tp_value\n");
+    for t in &r.statistics {
+        let v = crate::report::tsv_value;
+        tsv.push_str(&format!(
+            "{}\t{}\t{}\t{}\t{}\t{}\t{}\n",
+            t.statistic,
+            v(t.observed),
+            t.null_replicates,
+            v(t.null_mean),
+            v(t.null_low),
+            v(t.null_high),
+            v(t.p_value)
+        ));
+        if let Some(col) = null.column(&t.statistic) {
+            let xs: Vec<f64> = col.into_iter().flatten().collect();
+            if !xs.is_empty() {
+                let svg = crate::report::figures::null_histogram(&t.statistic, &xs, t.observed)?;
+                write_atomic(&dir.join("figures").join(format!("{}.svg", t.statistic)), svg.as_bytes())?;
+            }
+        }
+    }
+    write_atomic(&dir.join("test.tsv"), tsv.as_bytes())?;
+    write_atomic(&dir.join("test.json"), serde_json::to_string_pretty(r)?.as_bytes())?;
+    Ok(())
 }

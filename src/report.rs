@@ -4,6 +4,8 @@
 //! name in the destination directory and renamed when complete, so an interrupted run
 //! never leaves a half-written file under the final name.
 
+pub mod figures;
+
 use serde::Serialize;
 use std::fs;
 use std::io::{self, Write};
