@@ -1,0 +1,180 @@
+//! Batch-level benchmarks: exact engine against a forward-time pedigree simulation,
+//! scaling with N and n (fitted slopes), threads, null throughput, and peak memory.
+//!
+//! Run `cargo bench --bench batch` (all sections; a few minutes) or pass a section name:
+//! `forward`, `scaling`, `threads`, `null`, `memory`. Figures go to docs/performance.md.
+
+use rand::{RngExt, SeedableRng, rngs::ChaCha8Rng};
+use seedline::batch::{BatchConfig, Keep, master_key, replicate_rng, simulate_replicate};
+use seedline::dormancy::LookBack;
+use seedline::engine::Simulator;
+use seedline::scenario::Scenario;
+use std::hint::black_box;
+use std::time::Instant;
+
+fn scenario(yaml: &str) -> Scenario {
+    Scenario::from_yaml_str(yaml, "bench").unwrap()
+}
+
+fn median(mut v: Vec<f64>) -> f64 {
+    v.sort_by(f64::total_cmp);
+    v[v.len() / 2]
+}
+
+/// Seconds per replicate of the exact engine (median of rounds of at least 0.3 s).
+fn engine_seconds(s: &Scenario, rounds: usize) -> (f64, f64) {
+    let key = master_key(5);
+    let mut sim = Simulator::new();
+    let mut rep = 0;
+    let mut per = Vec::new();
+    let mut tmrca = 0.0;
+    let mut count = 0.0;
+    for _ in 0..rounds {
+        let t0 = Instant::now();
+        let mut k = 0;
+        while t0.elapsed().as_secs_f64() < 0.3 || k == 0 {
+            rep += 1;
+            let g = sim.simulate(s, &mut replicate_rng(&key, rep));
+            tmrca += g.tmrca().unwrap_or(0) as f64;
+            count += 1.0;
+            k += 1;
+        }
+        per.push(t0.elapsed().as_secs_f64() / k as f64);
+    }
+    (median(per), tmrca / count)
+}
+
+/// The naive method: draw every individual's parent generation by generation, forward in
+/// the sense of building the whole pedigree, then trace the sample back. Its cost is at
+/// least (generations simulated) x N parent draws; timed here per generation.
+fn forward_seconds_per_generation(n_pop: usize, law: &seedline::dormancy::Dormancy) -> f64 {
+    let mut rng = ChaCha8Rng::seed_from_u64(1);
+    let gens = 200;
+    let mut parents: Vec<(u32, u32)> = vec![(0, 0); n_pop * gens];
+    let mut per = Vec::new();
+    for _ in 0..5 {
+        let t0 = Instant::now();
+        for g in 0..gens {
+            for i in 0..n_pop {
+                let r = law.sample(&mut rng) as u32;
+                parents[g * n_pop + i] = (r, rng.random_range(0..n_pop as u32));
+            }
+        }
+        black_box(&parents);
+        per.push(t0.elapsed().as_secs_f64() / gens as f64);
+    }
+    median(per)
+}
+
+fn forward() {
+    let s = scenario("demes: [{name: a, size: 2000, dormancy: {law: geometric, mean: 3}}]\nsamples: [{deme: a, count: 20}]\n");
+    let (engine, tmrca) = engine_seconds(&s, 5);
+    let per_gen = forward_seconds_per_generation(2000, s.demes()[0].dormancy());
+    // The pedigree must reach back at least to the MRCA: cost >= E[T_MRCA] generations.
+    let forward = per_gen * tmrca;
+    println!("forward: N = 2000, geometric mean 3, n = 20: exact engine {:.3e} s/replicate; forward pedigree {:.3e} s/generation x E[T_MRCA] = {:.0} generations = {:.3e} s (a lower bound); ratio >= {:.0}", engine, per_gen, tmrca, forward, forward / engine);
+}
+
+fn slope(xs: &[f64], ys: &[f64]) -> f64 {
+    let lx: Vec<f64> = xs.iter().map(|x| x.ln()).collect();
+    let ly: Vec<f64> = ys.iter().map(|y| y.ln()).collect();
+    let n = lx.len() as f64;
+    let (mx, my) = (lx.iter().sum::<f64>() / n, ly.iter().sum::<f64>() / n);
+    let sxy: f64 = lx.iter().zip(&ly).map(|(x, y)| (x - mx) * (y - my)).sum();
+    let sxx: f64 = lx.iter().map(|x| (x - mx).powi(2)).sum();
+    sxy / sxx
+}
+
+fn scaling() {
+    let sizes = [1e3, 1e4, 1e5, 1e6];
+    let mut t = Vec::new();
+    for &n in &sizes {
+        let s = scenario(&format!("demes: [{{name: a, size: {n}, dormancy: {{law: geometric, mean: 2}}}}]\nsamples: [{{deme: a, count: 10}}]\n"));
+        let (sec, _) = engine_seconds(&s, 3);
+        println!("scaling: N = {n:.0e}, n = 10: {sec:.3e} s/replicate");
+        t.push(sec);
+    }
+    println!("scaling: fitted slope of log cost on log N: {:.2} (expected 1: steps ~ 2 N E[R] a_n)", slope(&sizes, &t));
+    let ns = [10.0, 100.0, 1000.0, 10000.0];
+    let mut t = Vec::new();
+    for &k in &ns {
+        let s = scenario(&format!("demes: [{{name: a, size: 100000, dormancy: {{law: geometric, mean: 2}}}}]\nsamples: [{{deme: a, count: {k}}}]\n"));
+        let (sec, _) = engine_seconds(&s, 3);
+        println!("scaling: N = 1e5, n = {k}: {sec:.3e} s/replicate");
+        t.push(sec);
+    }
+    println!("scaling: fitted slope of log cost on log n: {:.2} (steps ~ a_n ~ ln n, plus log n per heap operation)", slope(&ns, &t));
+}
+
+fn batch_seconds(s: &Scenario, reps: u64, threads: usize) -> f64 {
+    let idx: Vec<u64> = (0..reps).collect();
+    let key = master_key(s.seed());
+    let labels: Vec<String> = s.samples().iter().map(|x| x.label.clone()).collect();
+    let t0 = Instant::now();
+    seedline::batch::run(
+        s,
+        &idx,
+        BatchConfig { threads, chunk: 256 },
+        |sim, sc, rep, _| simulate_replicate(sim, sc, &key, rep, Keep::default(), &labels, None).unwrap(),
+        |_, r| {
+            black_box(r);
+            Ok(())
+        },
+    )
+    .unwrap();
+    t0.elapsed().as_secs_f64()
+}
+
+fn threads_and_null() {
+    let s = scenario("demes: [{name: a, size: 1000, dormancy: {law: geometric, mean: 2}}]\nsamples: [{deme: a, count: 50}]\nmutation: {rate: 1.0e-7, sites: 100000}\n");
+    let reps = 400;
+    let (mut one, mut two) = (Vec::new(), Vec::new());
+    for _ in 0..5 {
+        one.push(batch_seconds(&s, reps, 1));
+        two.push(batch_seconds(&s, reps, 2));
+    }
+    let (a, b) = (median(one), median(two));
+    println!(
+        "threads/null: n = 50, N = 1000, geometric mean 2, with mutations and statistics: 1 thread {:.1} replicates/s, 2 threads {:.1} replicates/s, ratio {:.2}",
+        reps as f64 / a,
+        reps as f64 / b,
+        a / b
+    );
+}
+
+fn peak_rss_kib() -> Option<u64> {
+    let s = std::fs::read_to_string("/proc/self/status").ok()?;
+    s.lines().find(|l| l.starts_with("VmHWM:"))?.split_whitespace().nth(1)?.parse().ok()
+}
+
+fn memory() {
+    let before = peak_rss_kib();
+    let s = scenario("demes: [{name: a, size: 1000000}]\nsamples: [{deme: a, count: 100000}]\n");
+    let t0 = Instant::now();
+    let g = Simulator::new().simulate(&s, &mut replicate_rng(&master_key(1), 0));
+    let after = peak_rss_kib();
+    println!(
+        "memory: n = 1e5, N = 1e6, no dormancy: {} nodes, {:.1} s, peak RSS {} MiB (before the run {} MiB)",
+        g.graph().node_count(),
+        t0.elapsed().as_secs_f64(),
+        after.map_or("?".into(), |k| (k / 1024).to_string()),
+        before.map_or("?".into(), |k| (k / 1024).to_string())
+    );
+}
+
+fn main() {
+    let args: Vec<String> = std::env::args().skip(1).filter(|a| !a.starts_with("--")).collect();
+    let want = |s: &str| args.is_empty() || args.iter().any(|a| a == s);
+    if want("forward") {
+        forward();
+    }
+    if want("scaling") {
+        scaling();
+    }
+    if want("threads") || want("null") {
+        threads_and_null();
+    }
+    if want("memory") {
+        memory();
+    }
+}
