@@ -23,6 +23,7 @@
 #![forbid(unsafe_code)]
 #![deny(missing_docs)]
 
+pub mod abc;
 pub mod batch;
 pub mod demography;
 pub mod dormancy;
