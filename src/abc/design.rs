@@ -413,7 +413,7 @@ pub fn run(
                     file: designs.origin.clone(),
                     path: format!("designs[{i}] ({})", d.name),
                     line: d.line,
-                    message: format!("applied to {}: {e}", h.origin),
+                    message: format!("applied to {}: {}", h.origin, super::full_message(&e)),
                 }
             })
         };

@@ -42,7 +42,7 @@ use std::path::{Path, PathBuf};
 #[non_exhaustive]
 pub enum Error {
     /// A file could not be read.
-    #[error("cannot read {file}: {source}")]
+    #[error("cannot read {file}")]
     Read {
         /// File name.
         file: String,
@@ -71,7 +71,7 @@ pub enum Error {
     #[error(transparent)]
     Scenario(#[from] crate::scenario::Error),
     /// The scenario is invalid for some values drawn from the priors.
-    #[error("{file}: with {values}: {source}")]
+    #[error("{file}: with {values}")]
     Draw {
         /// File name.
         file: String,
@@ -104,7 +104,7 @@ pub enum Error {
         message: String,
     },
     /// Mutations could not be placed.
-    #[error("{file}: simulation {index}: {source}")]
+    #[error("{file}: simulation {index}")]
     Simulation {
         /// Hypothesis file.
         file: String,
@@ -114,7 +114,7 @@ pub enum Error {
         source: crate::mutation::Error,
     },
     /// The thread pool could not be built.
-    #[error("could not start {threads} worker threads: {source}")]
+    #[error("could not start {threads} worker threads")]
     Threads {
         /// Threads requested.
         threads: usize,
@@ -122,13 +122,25 @@ pub enum Error {
         source: rayon::ThreadPoolBuildError,
     },
     /// An output file could not be written.
-    #[error("cannot write {}: {source}", path.display())]
+    #[error("cannot write {}", path.display())]
     Write {
         /// Path.
         path: PathBuf,
         /// Cause.
         source: std::io::Error,
     },
+}
+
+/// The error and all its causes, joined by `: ` (for messages that embed another error).
+pub fn full_message(e: &(dyn std::error::Error + 'static)) -> String {
+    let mut s = e.to_string();
+    let mut cur = e.source();
+    while let Some(c) = cur {
+        s.push_str(": ");
+        s.push_str(&c.to_string());
+        cur = c.source();
+    }
+    s
 }
 
 impl Error {
