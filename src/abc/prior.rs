@@ -205,7 +205,7 @@ impl Hypothesis {
         }
         let mut v = self.template.clone();
         for (p, &x) in self.priors.iter().zip(values) {
-            let number = if p.integer && x >= 0.0 && x < 9e15 {
+            let number = if p.integer && (0.0..9e15).contains(&x) {
                 Value::from(x as u64)
             } else {
                 serde_json::Number::from_f64(x).map(Value::Number).unwrap_or(Value::Null)

@@ -21,8 +21,9 @@ pub fn solve(mut a: Vec<Vec<f64>>, mut b: Vec<f64>) -> Option<Vec<f64>> {
         for r in col + 1..n {
             let f = a[r][col] / a[col][col];
             if f != 0.0 {
-                for c in col..n {
-                    a[r][c] -= f * a[col][c];
+                let (upper, lower) = a.split_at_mut(r);
+                for (x, p) in lower[0][col..].iter_mut().zip(&upper[col][col..]) {
+                    *x -= f * p;
                 }
                 b[r] -= f * b[col];
             }
@@ -67,10 +68,10 @@ pub fn local_linear(y: &[f64], x: &[Vec<f64>], w: &[f64]) -> LocalLinear {
         if w[i] <= 0.0 {
             continue;
         }
-        for r in 0..dim {
+        for (r, row) in a.iter_mut().enumerate() {
             b[r] += w[i] * feat(i, r) * y[i];
-            for c in 0..dim {
-                a[r][c] += w[i] * feat(i, r) * feat(i, c);
+            for (c, x) in row.iter_mut().enumerate() {
+                *x += w[i] * feat(i, r) * feat(i, c);
             }
         }
     }
