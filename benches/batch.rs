@@ -67,12 +67,21 @@ fn forward_seconds_per_generation(n_pop: usize, law: &seedline::dormancy::Dorman
 }
 
 fn forward() {
-    let s = scenario("demes: [{name: a, size: 2000, dormancy: {law: geometric, mean: 3}}]\nsamples: [{deme: a, count: 20}]\n");
+    let s = scenario(
+        "demes: [{name: a, size: 2000, dormancy: {law: geometric, mean: 3}}]\nsamples: [{deme: a, count: 20}]\n",
+    );
     let (engine, tmrca) = engine_seconds(&s, 5);
     let per_gen = forward_seconds_per_generation(2000, s.demes()[0].dormancy());
     // The pedigree must reach back at least to the MRCA: cost >= E[T_MRCA] generations.
     let forward = per_gen * tmrca;
-    println!("forward: N = 2000, geometric mean 3, n = 20: exact engine {:.3e} s/replicate; forward pedigree {:.3e} s/generation x E[T_MRCA] = {:.0} generations = {:.3e} s (a lower bound); ratio >= {:.0}", engine, per_gen, tmrca, forward, forward / engine);
+    println!(
+        "forward: N = 2000, geometric mean 3, n = 20: exact engine {:.3e} s/replicate; forward pedigree {:.3e} s/generation x E[T_MRCA] = {:.0} generations = {:.3e} s (a lower bound); ratio >= {:.0}",
+        engine,
+        per_gen,
+        tmrca,
+        forward,
+        forward / engine
+    );
 }
 
 fn slope(xs: &[f64], ys: &[f64]) -> f64 {
@@ -89,7 +98,9 @@ fn scaling() {
     let sizes = [1e3, 1e4, 1e5, 1e6];
     let mut t = Vec::new();
     for &n in &sizes {
-        let s = scenario(&format!("demes: [{{name: a, size: {n}, dormancy: {{law: geometric, mean: 2}}}}]\nsamples: [{{deme: a, count: 10}}]\n"));
+        let s = scenario(&format!(
+            "demes: [{{name: a, size: {n}, dormancy: {{law: geometric, mean: 2}}}}]\nsamples: [{{deme: a, count: 10}}]\n"
+        ));
         let (sec, _) = engine_seconds(&s, 3);
         println!("scaling: N = {n:.0e}, n = 10: {sec:.3e} s/replicate");
         t.push(sec);
@@ -98,12 +109,17 @@ fn scaling() {
     let ns = [10.0, 100.0, 1000.0, 10000.0];
     let mut t = Vec::new();
     for &k in &ns {
-        let s = scenario(&format!("demes: [{{name: a, size: 100000, dormancy: {{law: geometric, mean: 2}}}}]\nsamples: [{{deme: a, count: {k}}}]\n"));
+        let s = scenario(&format!(
+            "demes: [{{name: a, size: 100000, dormancy: {{law: geometric, mean: 2}}}}]\nsamples: [{{deme: a, count: {k}}}]\n"
+        ));
         let (sec, _) = engine_seconds(&s, 3);
         println!("scaling: N = 1e5, n = {k}: {sec:.3e} s/replicate");
         t.push(sec);
     }
-    println!("scaling: fitted slope of log cost on log n: {:.2} (steps ~ a_n ~ ln n, plus log n per heap operation)", slope(&ns, &t));
+    println!(
+        "scaling: fitted slope of log cost on log n: {:.2} (steps ~ a_n ~ ln n, plus log n per heap operation)",
+        slope(&ns, &t)
+    );
 }
 
 fn batch_seconds(s: &Scenario, reps: u64, threads: usize) -> f64 {
@@ -126,7 +142,9 @@ fn batch_seconds(s: &Scenario, reps: u64, threads: usize) -> f64 {
 }
 
 fn threads_and_null() {
-    let s = scenario("demes: [{name: a, size: 1000, dormancy: {law: geometric, mean: 2}}]\nsamples: [{deme: a, count: 50}]\nmutation: {rate: 1.0e-7, sites: 100000}\n");
+    let s = scenario(
+        "demes: [{name: a, size: 1000, dormancy: {law: geometric, mean: 2}}]\nsamples: [{deme: a, count: 50}]\nmutation: {rate: 1.0e-7, sites: 100000}\n",
+    );
     let reps = 400;
     let (mut one, mut two) = (Vec::new(), Vec::new());
     for _ in 0..5 {

@@ -23,6 +23,7 @@
 #![forbid(unsafe_code)]
 #![deny(missing_docs)]
 
+pub mod abc;
 pub mod approx;
 pub mod arg;
 pub mod batch;

@@ -14,6 +14,8 @@ const EXAMPLES: &str = "Examples:
   seedline simulate scenarios/lake-resting-eggs.yaml --vcf --diploid
   seedline predict scenarios/soil-microbe-rare-long.yaml --json
   seedline validate scenarios/lake-resting-eggs.yaml
+  seedline compare observed.json --hypotheses h-none.yaml h-pareto.yaml --simulations 2000 --out abc
+  seedline design --null h-none.yaml --alternative h-pareto.yaml --designs designs.yaml --out power
 
 Exit codes: 0 success, 2 bad input (scenario or flags), 1 any other failure.";
 
@@ -157,6 +159,67 @@ enum Command {
         #[arg(long, default_value = "seedline-test")]
         out: PathBuf,
     },
+    /// ABC model choice between hypothesis files (priors allowed) and parameter estimation
+    #[command(after_help = EXAMPLES)]
+    Compare {
+        /// Observed statistics (observed.json of `seedline observe`, or {"statistics": {...}})
+        observed: PathBuf,
+        /// Hypothesis files: scenarios whose numbers may be priors {prior: uniform|log_uniform, low, high}
+        #[arg(long, num_args = 1.., required = true)]
+        hypotheses: Vec<PathBuf>,
+        /// Simulations per hypothesis
+        #[arg(long, default_value_t = 1000)]
+        simulations: u64,
+        /// Fraction of all simulations accepted
+        #[arg(long, default_value_t = 0.05)]
+        tolerance: f64,
+        /// Statistics to use, comma-separated (default: segregating_sites,pi,tajima_d,fay_wu_h,haplotypes,sfs_1,sfs_2,sfs_3)
+        #[arg(long, value_delimiter = ',')]
+        statistics: Option<Vec<String>>,
+        /// Model-choice adjustment: none (rejection shares) or logistic (Beaumont 2008)
+        #[arg(long, default_value = "none", value_parser = ["none", "logistic"])]
+        adjust: String,
+        /// Worker threads (0 = one per core)
+        #[arg(long, default_value_t = 0)]
+        threads: usize,
+        /// Output directory
+        #[arg(long, default_value = "seedline-compare")]
+        out: PathBuf,
+    },
+    /// Power of candidate sampling designs to reject a null hypothesis, and the cheapest reaching a target
+    #[command(after_help = EXAMPLES)]
+    Design {
+        /// Null hypothesis file
+        #[arg(long)]
+        null: PathBuf,
+        /// Alternative hypothesis file
+        #[arg(long)]
+        alternative: PathBuf,
+        /// Candidate designs (YAML: designs: [{name, samples, sites?, loci?}], costs?)
+        #[arg(long)]
+        designs: PathBuf,
+        /// Test level
+        #[arg(long, default_value_t = 0.05)]
+        level: f64,
+        /// Target power
+        #[arg(long, default_value_t = 0.8)]
+        target: f64,
+        /// Null datasets per design (B)
+        #[arg(long, default_value_t = 500)]
+        replicates: u64,
+        /// Alternative datasets per design (P)
+        #[arg(long, default_value_t = 200)]
+        power_replicates: u64,
+        /// Statistics to test, comma-separated (sfs_chi2 is always added)
+        #[arg(long, value_delimiter = ',')]
+        statistics: Option<Vec<String>>,
+        /// Worker threads (0 = one per core)
+        #[arg(long, default_value_t = 0)]
+        threads: usize,
+        /// Output directory
+        #[arg(long, default_value = "seedline-design")]
+        out: PathBuf,
+    },
     /// Check a scenario file and print it as parsed, without simulating
     #[command(after_help = EXAMPLES)]
     Validate {
@@ -200,6 +263,8 @@ fn main() -> ExitCode {
                     || c.is::<scenario::Error>()
                     || c.is::<seedline::observed::Error>()
                     || c.is::<seedline::approx::ApproxError>()
+                    || c.is::<seedline::null::SettingsMismatch>()
+                    || c.downcast_ref::<seedline::abc::Error>().is_some_and(|a| a.is_bad_input())
             });
             ExitCode::from(if bad_input { 2 } else { 1 })
         }
@@ -340,6 +405,55 @@ fn run(cli: Cli) -> Result<()> {
                 out.join("test.json").display(),
                 out.join("figures").display()
             );
+            Ok(())
+        }
+        Command::Compare { observed, hypotheses, simulations, tolerance, statistics, adjust, threads, out } => {
+            use seedline::abc::{self, compare};
+            let obs = abc::load_observed(&observed)?;
+            let files: Vec<String> = hypotheses.iter().map(|p| p.display().to_string()).collect();
+            let names = abc::unique_names(&files);
+            let hyps = hypotheses
+                .iter()
+                .zip(&names)
+                .map(|(p, n)| abc::load_hypothesis(p, n))
+                .collect::<Result<Vec<_>, _>>()?;
+            let adjust = if adjust == "logistic" { compare::Adjust::Logistic } else { compare::Adjust::None };
+            let opts = compare::CompareOptions { simulations, tolerance, statistics, adjust, threads };
+            let bar = progress_bar(simulations * hyps.len() as u64);
+            let result = compare::run(&obs, hyps, opts, &|| bar.inc(1))?;
+            bar.finish_and_clear();
+            compare::write(&result, &out)?;
+            print!("{}", compare::render(&result));
+            println!("wrote results to {}", out.display());
+            Ok(())
+        }
+        Command::Design {
+            null,
+            alternative,
+            designs,
+            level,
+            target,
+            replicates,
+            power_replicates,
+            statistics,
+            threads,
+            out,
+        } => {
+            use seedline::abc::{self, design};
+            let names = abc::unique_names(&[null.display().to_string(), alternative.display().to_string()]);
+            let h0 = abc::load_hypothesis(&null, &names[0])?;
+            let h1 = abc::load_hypothesis(&alternative, &names[1])?;
+            let origin = designs.display().to_string();
+            let text = std::fs::read_to_string(&designs)
+                .map_err(|e| BadInput(format!("cannot read designs file {origin}: {e}")))?;
+            let file = design::parse_designs(&text, &origin)?;
+            let opts = design::DesignOptions { level, target, replicates, power_replicates, statistics, threads };
+            let bar = progress_bar((replicates + power_replicates) * file.designs.len() as u64);
+            let result = design::run(&h0, &h1, &file, opts, &|| bar.inc(1))?;
+            bar.finish_and_clear();
+            design::write(&result, &out)?;
+            print!("{}", design::render(&result));
+            println!("wrote results to {}", out.display());
             Ok(())
         }
         Command::Validate { scenario } => {
