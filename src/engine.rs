@@ -118,31 +118,7 @@ impl Simulator {
         let n = model.size(deme, time);
         // Sampled individuals take the first seats.
         self.group.sort_unstable_by_key(|e| (!e.sample, e.node));
-        let mut occupied = self.group.iter().filter(|e| e.sample).count() as u64;
-        self.seat.clear();
-        for e in &self.group {
-            let s = if e.sample {
-                self.seat.len() as u64
-            } else if occupied == 0 {
-                occupied = 1;
-                0
-            } else if n == 1 {
-                0
-            } else {
-                let u = rng.random_range(0..n);
-                if u < occupied {
-                    u
-                } else {
-                    occupied += 1;
-                    occupied - 1
-                }
-            };
-            self.seat.push(s as u32);
-        }
-        self.order.clear();
-        self.order.extend(0..self.group.len() as u32);
-        let seat = &self.seat;
-        self.order.sort_unstable_by_key(|&i| (seat[i as usize], i));
+        seat_lineages(self.group.iter().map(|e| e.sample), n, &mut self.seat, &mut self.order, rng);
         let mut steps = 0;
         let mut i = 0;
         while i < self.order.len() {
@@ -202,6 +178,45 @@ impl Simulator {
         self.heap.push(Reverse(Entry { key: model.key(t, to), node, jumps: jumps + 1, sample: false }));
         1
     }
+}
+
+/// Seats the lineages of one (deme, generation) on individuals among `size`.
+///
+/// `is_sample` lists the group in order, sampled individuals first (each is an occupied
+/// seat of its own). Every other lineage is the same individual as each of the `m` seats
+/// occupied so far with probability 1/size, or takes a new seat with probability
+/// 1 - m/size: i.i.d. uniform parent choice with individuals left unlabelled. On return
+/// `seat[i]` is the seat of lineage i and `order` lists the lineages sorted by seat. The
+/// recombination engine seats its lineages with the same function.
+pub(crate) fn seat_lineages<R: Rng + ?Sized>(
+    is_sample: impl Iterator<Item = bool>,
+    size: u64,
+    seat: &mut Vec<u32>,
+    order: &mut Vec<u32>,
+    rng: &mut R,
+) {
+    seat.clear();
+    let mut occupied = 0u64;
+    for sample in is_sample {
+        let s = if sample || occupied == 0 {
+            occupied += 1;
+            occupied - 1
+        } else if size == 1 {
+            0
+        } else {
+            let u = rng.random_range(0..size);
+            if u < occupied {
+                u
+            } else {
+                occupied += 1;
+                occupied - 1
+            }
+        };
+        seat.push(s as u32);
+    }
+    order.clear();
+    order.extend(0..seat.len() as u32);
+    order.sort_unstable_by_key(|&i| (seat[i as usize], i));
 }
 
 /// The parts of a scenario the hot loop reads, with fast paths chosen once.

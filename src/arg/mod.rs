@@ -410,31 +410,7 @@ impl ArgSimulator {
     fn seat_group<R: Rng + ?Sized>(&mut self, model: &Model, n: u32, time: u64, deme: usize, rng: &mut R) {
         let size = model.size(deme, time);
         self.group.sort_unstable_by_key(|e| (!e.sample, e.node, e.id));
-        let mut occupied = self.group.iter().filter(|e| e.sample).count() as u64;
-        self.seat.clear();
-        for e in &self.group {
-            let s = if e.sample {
-                self.seat.len() as u64
-            } else if occupied == 0 {
-                occupied = 1;
-                0
-            } else if size == 1 {
-                0
-            } else {
-                let u = rng.random_range(0..size);
-                if u < occupied {
-                    u
-                } else {
-                    occupied += 1;
-                    occupied - 1
-                }
-            };
-            self.seat.push(s as u32);
-        }
-        self.order.clear();
-        self.order.extend(0..self.group.len() as u32);
-        let seat = &self.seat;
-        self.order.sort_unstable_by_key(|&i| (seat[i as usize], i));
+        crate::engine::seat_lineages(self.group.iter().map(|e| e.sample), size, &mut self.seat, &mut self.order, rng);
         let mut i = 0;
         while i < self.order.len() {
             let s = self.seat[self.order[i] as usize];
