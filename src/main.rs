@@ -361,7 +361,7 @@ fn run(cli: Cli) -> Result<()> {
             let scenario = Scenario::from_raw(raw, &origin)?;
             let count = match (&observed, condition_on_s) {
                 (Some(o), true) => {
-                    let s = o.statistics.iter().find(|(k, _)| k == "segregating_sites").and_then(|(_, v)| *v);
+                    let s = o.value("segregating_sites");
                     let s = s.ok_or_else(|| BadInput("the observed data have no segregating_sites".into()))?;
                     seedline::mutation::Count::Fixed(s.round() as u64)
                 }

@@ -350,49 +350,8 @@ pub fn merge(dirs: &[PathBuf], out: &Path) -> Result<u64> {
     Ok(have)
 }
 
-/// Observed statistics as read from `observed.json` (written by `seedline observe`).
-#[derive(Debug, Clone)]
-pub struct ObservedData {
-    /// Statistic name to value (`None` when undefined).
-    pub statistics: Vec<(String, Option<f64>)>,
-    /// Unfolded SFS, when polarised.
-    pub xi: Option<Vec<f64>>,
-    /// Folded SFS.
-    pub eta: Option<Vec<f64>>,
-    /// Sampling design: (deme, generations ago, sequences).
-    pub design: Vec<(String, u64, u64)>,
-}
-
-/// Reads `observed.json`; also accepts a plain `{"statistics": {...}}` object.
-pub fn load_observed(path: &Path) -> Result<ObservedData> {
-    let text = fs::read_to_string(path).with_context(|| format!("reading {}", path.display()))?;
-    let v: serde_json::Value =
-        serde_json::from_str(&text).with_context(|| format!("{} is not JSON", path.display()))?;
-    let stats = v.get("statistics").and_then(|s| s.as_object()).with_context(|| {
-        format!("{}: no `statistics` object (expected the observed.json written by `seedline observe`)", path.display())
-    })?;
-    let columns: Vec<String> = match v.get("columns").and_then(|c| c.as_array()) {
-        Some(c) => c.iter().filter_map(|x| x.as_str().map(String::from)).collect(),
-        None => stats.keys().cloned().collect(),
-    };
-    let statistics = columns.iter().map(|c| (c.clone(), stats.get(c).and_then(|x| x.as_f64()))).collect();
-    let spectrum = |key: &str| -> Option<Vec<f64>> {
-        v.get(key).and_then(|x| x.as_array()).map(|a| a.iter().filter_map(|x| x.as_f64()).collect())
-    };
-    let mut design = Vec::new();
-    if let Some(d) = v.get("design").and_then(|d| d.as_array()) {
-        for (i, e) in d.iter().enumerate() {
-            let deme = e.get("deme").and_then(|x| x.as_str());
-            let t = e.get("generations_ago").and_then(|x| x.as_u64());
-            let n = e.get("sequences").and_then(|x| x.as_u64());
-            match (deme, t, n) {
-                (Some(d), Some(t), Some(n)) => design.push((d.to_string(), t, n)),
-                _ => bail!("{}: design[{i}] needs deme, generations_ago and sequences", path.display()),
-            }
-        }
-    }
-    Ok(ObservedData { statistics, xi: spectrum("xi"), eta: spectrum("eta"), design })
-}
+/// Observed statistics as read from `observed.json` (one reader for the whole tool).
+pub use crate::abc::{ObservedData, load_observed};
 
 /// Replaces the scenario's samples by the observed sampling design (`--like`): one sample
 /// group per (deme, time) with the observed number of sequences.
@@ -407,7 +366,7 @@ pub fn like(raw: &mut crate::scenario::RawScenario, observed: &ObservedData, ori
             serde_saphyr::Spanned::new(
                 crate::scenario::raw::RawSample {
                     deme: deme.clone(),
-                    count: Some(*n),
+                    count: Some(u64::from(*n)),
                     generations_ago: Some(*t as f64),
                     block: None,
                     from: None,
@@ -439,20 +398,34 @@ pub struct StatTest {
     pub p_value: Option<f64>,
 }
 
-/// Two-sided empirical p-value of `obs` among `null` values:
+/// Two-sided empirical p-value of `x` among the **sorted** null values:
 ///
 /// ```text
 /// p = min(1, 2 min(r_low + 1, r_high + 1) / (B + 1)),
-/// r_low = #{x <= obs},  r_high = #{x >= obs}
+/// r_low = #{null <= x},  r_high = #{null >= x}
 /// ```
 /// Each one-sided value (r + 1)/(B + 1) counts the observation as one more draw from the
 /// null (Davison & Hinkley 1997, Bootstrap Methods, §4.2); doubling the smaller is the usual
 /// two-sided form.
+pub fn p_two_sided(null_sorted: &[f64], x: f64) -> f64 {
+    let b = null_sorted.len() as f64;
+    let le = null_sorted.partition_point(|&v| v <= x) as f64;
+    let ge = (null_sorted.len() - null_sorted.partition_point(|&v| v < x)) as f64;
+    (2.0 * ((le + 1.0) / (b + 1.0)).min((ge + 1.0) / (b + 1.0))).min(1.0)
+}
+
+/// Upper one-sided empirical p-value (#{null >= x} + 1)/(B + 1) of the sorted null values
+/// (Davison & Hinkley 1997).
+pub fn p_upper(null_sorted: &[f64], x: f64) -> f64 {
+    let ge = (null_sorted.len() - null_sorted.partition_point(|&v| v < x)) as f64;
+    (ge + 1.0) / (null_sorted.len() as f64 + 1.0)
+}
+
+/// [`p_two_sided`] for unsorted null values.
 pub fn empirical_p(obs: f64, null: &[f64]) -> f64 {
-    let b = null.len() as f64;
-    let low = null.iter().filter(|&&x| x <= obs).count() as f64;
-    let high = null.iter().filter(|&&x| x >= obs).count() as f64;
-    (2.0 * (low + 1.0).min(high + 1.0) / (b + 1.0)).min(1.0)
+    let mut v = null.to_vec();
+    v.sort_by(f64::total_cmp);
+    p_two_sided(&v, obs)
 }
 
 /// The SFS goodness-of-fit statistic: a chi-square distance of a spectrum to the null's
@@ -486,7 +459,7 @@ pub struct TestReport {
 pub fn test(observed: &ObservedData, null: &NullTable) -> Result<TestReport> {
     let mut notes = Vec::new();
     let mut statistics = Vec::new();
-    for (name, obs) in &observed.statistics {
+    for (name, obs) in observed.names.iter().zip(&observed.values) {
         let Some(col) = null.column(name) else {
             notes.push(format!("{name}: not in the null distribution (different demes?)"));
             continue;
@@ -501,7 +474,7 @@ pub fn test(observed: &ObservedData, null: &NullTable) -> Result<TestReport> {
             null_mean: summary.mean,
             null_low: summary.quantiles.map(|q| q[0]),
             null_high: summary.quantiles.map(|q| q[4]),
-            p_value: obs.filter(|_| !xs.is_empty()).map(|o| empirical_p(o, &xs)),
+            p_value: obs.filter(|_| !xs.is_empty()).map(|o| p_two_sided(&xs, o)),
         });
     }
     let xi_cols: Vec<Vec<f64>> = (1..)
@@ -512,7 +485,7 @@ pub fn test(observed: &ObservedData, null: &NullTable) -> Result<TestReport> {
     let mut sfs_fit = None;
     if !xi_cols.is_empty() && b > 0 {
         let rows: Vec<Vec<f64>> = (0..b).map(|r| xi_cols.iter().map(|c| c[r]).collect()).collect();
-        let (kind, obs, rows) = match (&observed.xi, &observed.eta) {
+        let (kind, obs, rows) = match (&observed.sfs, &observed.eta) {
             (Some(xi), _) if xi.len() == xi_cols.len() => ("unfolded", xi.clone(), rows),
             (_, Some(eta)) if eta.len() == (xi_cols.len() + 1) / 2 => {
                 ("folded", eta.clone(), rows.iter().map(|r| fold(r)).collect())
@@ -529,9 +502,9 @@ pub fn test(observed: &ObservedData, null: &NullTable) -> Result<TestReport> {
             let k = obs.len();
             let mean: Vec<f64> = (0..k).map(|i| rows.iter().map(|r| r[i]).sum::<f64>() / b as f64).collect();
             let g_obs = sfs_distance(&obs, &mean);
-            let g_null: Vec<f64> = rows.iter().map(|r| sfs_distance(r, &mean)).collect();
-            let r = g_null.iter().filter(|&&g| g >= g_obs).count() as f64;
-            sfs_fit = Some((kind.to_string(), g_obs, (r + 1.0) / (b as f64 + 1.0)));
+            let mut g_null: Vec<f64> = rows.iter().map(|r| sfs_distance(r, &mean)).collect();
+            g_null.sort_by(f64::total_cmp);
+            sfs_fit = Some((kind.to_string(), g_obs, p_upper(&g_null, g_obs)));
         }
     }
     Ok(TestReport { statistics, sfs_fit, replicates: b, notes })

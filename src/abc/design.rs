@@ -184,19 +184,7 @@ pub fn parse_designs(text: &str, origin: &str) -> Result<DesignFile, Error> {
     Ok(DesignFile { origin: origin.to_string(), designs, costs })
 }
 
-/// Two-sided empirical p-value of `x` against the sorted null values (module docs).
-pub fn p_two_sided(null_sorted: &[f64], x: f64) -> f64 {
-    let b = null_sorted.len() as f64;
-    let le = null_sorted.partition_point(|&v| v <= x) as f64;
-    let ge = (null_sorted.len() - null_sorted.partition_point(|&v| v < x)) as f64;
-    (2.0 * ((le + 1.0) / (b + 1.0)).min((ge + 1.0) / (b + 1.0))).min(1.0)
-}
-
-/// Upper one-sided empirical p-value (#{null >= x} + 1)/(B + 1) (Davison & Hinkley 1997).
-pub fn p_upper(null_sorted: &[f64], x: f64) -> f64 {
-    let ge = (null_sorted.len() - null_sorted.partition_point(|&v| v < x)) as f64;
-    (ge + 1.0) / (null_sorted.len() as f64 + 1.0)
-}
+pub use crate::null::{p_two_sided, p_upper};
 
 /// z for a two-sided 95% normal interval, Φ⁻¹(0.975).
 pub const Z95: f64 = 1.959963984540054;
@@ -220,14 +208,7 @@ pub fn wilson_interval(k: u64, n: u64, z: f64) -> (f64, f64) {
     ((c - h).max(0.0), (c + h).min(1.0))
 }
 
-/// Chi-square distance of an SFS to an expected one, over classes with expected > 0:
-///
-/// ```text
-/// X = Σ_k (ξ_k − m_k)² / m_k
-/// ```
-pub fn sfs_chi2(sfs: &[f64], expected: &[f64]) -> f64 {
-    sfs.iter().zip(expected).filter(|(_, m)| **m > 0.0).map(|(x, m)| (x - m).powi(2) / m).sum()
-}
+pub use crate::null::sfs_distance as sfs_chi2;
 
 /// Power of one statistic under one design.
 #[derive(Debug, Clone, PartialEq, serde::Serialize)]

@@ -161,6 +161,8 @@ pub struct ObservedData {
     pub values: Vec<Option<f64>>,
     /// Unfolded SFS ξ_1..ξ_{n-1}, when the file has one.
     pub sfs: Option<Vec<f64>>,
+    /// Folded SFS η_1..η_{n/2}, when the file has one (`eta`).
+    pub eta: Option<Vec<f64>>,
     /// Sample size (sequences) of the statistics, when the file says.
     pub sample_size: Option<u32>,
     /// Sampling design: (deme, generations ago, sequences), when the file says.
@@ -234,6 +236,7 @@ pub fn parse_observed(text: &str, origin: &str) -> Result<ObservedData, Error> {
             Some(out)
         }
     };
+    let eta = v.get("eta").and_then(Value::as_array).map(|a| a.iter().filter_map(Value::as_f64).collect());
     let sample_size = v
         .get("projection")
         .and_then(|p| p.get("m"))
@@ -255,7 +258,7 @@ pub fn parse_observed(text: &str, origin: &str) -> Result<ObservedData, Error> {
                 .collect()
         })
         .unwrap_or_default();
-    Ok(ObservedData { origin: origin.to_string(), names, values, sfs, sample_size, design })
+    Ok(ObservedData { origin: origin.to_string(), names, values, sfs, eta, sample_size, design })
 }
 
 /// The default statistics: defined for every dataset with segregating sites, and not
