@@ -191,6 +191,32 @@ pub fn place_with<R: Rng + ?Sized>(
     Ok(Mutations { positions: sites.into_iter().map(|(p, _)| p).collect(), haplotypes })
 }
 
+/// Places mutations along an ancestral recombination graph: each local tree receives the
+/// mutations of its own interval of sites, as [`place`] with `sites = right - left`, drawn
+/// tree by tree from left to right; positions are shifted by `left`, so they stay distinct,
+/// increasing and in 1..=L over the whole sequence. The haplotype matrix joins the trees'.
+///
+/// Infinite sites holds per interval: more mutations than sites on one local tree is
+/// [`Error::TooManyMutations`] (with the interval's number of sites).
+pub fn place_along<R: Rng + ?Sized>(
+    arg: &crate::arg::Arg,
+    model: &MutationModel,
+    demes: Vec<u32>,
+    rng: &mut R,
+) -> Result<Mutations, Error> {
+    let mut positions = Vec::new();
+    let mut haplotypes = Haplotypes::new(demes.clone());
+    for t in arg.trees() {
+        let local = MutationModel { sites: t.sites(), ..*model };
+        let m = place(t.genealogy(), &local, demes.clone(), rng)?;
+        positions.extend(m.positions.iter().map(|p| p + t.left()));
+        for site in 0..m.haplotypes.sites() {
+            haplotypes.push_site_bits(m.haplotypes.site_bits(site));
+        }
+    }
+    Ok(Mutations { positions, haplotypes })
+}
+
 #[cfg(test)]
 mod tests {
     use super::*;
