@@ -218,14 +218,15 @@ impl LocusOutcome {
 }
 
 /// Edges of the distance bins of `ld.tsv` for a sequence of `sites` sites: 1, 2, 5, 10, 20,
-/// 50, ... below `sites`, then `sites` (distances between sites are 1..sites-1).
+/// 50, ... up to half of `sites`, then `sites` (distances between sites are 1..sites-1), so
+/// that the last bin spans at least a factor of 2.
 pub fn ld_bins(sites: u64) -> Vec<u64> {
     let mut edges = Vec::new();
     let mut decade = 1u64;
     'grid: loop {
         for m in [1, 2, 5] {
             let e = decade.saturating_mul(m);
-            if e >= sites {
+            if e.saturating_mul(2) > sites {
                 break 'grid;
             }
             edges.push(e);

@@ -72,6 +72,18 @@ pub enum Error {
         /// Sites available.
         sites: u64,
     },
+    /// More mutations than sites on one local tree of a recombining locus.
+    #[error(
+        "{mutations} mutations fell on the local tree of sites {left}..{right} ({} sites): the infinite-sites model needs many more sites than mutations on every local tree (lower the mutation or recombination rate)", right - left
+    )]
+    TooManyOnLocalTree {
+        /// Mutations drawn on the tree.
+        mutations: u64,
+        /// First site of the tree's interval (0-based).
+        left: u64,
+        /// One past its last site.
+        right: u64,
+    },
 }
 
 /// The mutations of one locus: sorted 1-based positions and the haplotype matrix.
@@ -197,7 +209,7 @@ pub fn place_with<R: Rng + ?Sized>(
 /// increasing and in 1..=L over the whole sequence. The haplotype matrix joins the trees'.
 ///
 /// Infinite sites holds per interval: more mutations than sites on one local tree is
-/// [`Error::TooManyMutations`] (with the interval's number of sites).
+/// [`Error::TooManyOnLocalTree`].
 pub fn place_along<R: Rng + ?Sized>(
     arg: &crate::arg::Arg,
     model: &MutationModel,
@@ -208,7 +220,12 @@ pub fn place_along<R: Rng + ?Sized>(
     let mut haplotypes = Haplotypes::new(demes.clone());
     for t in arg.trees() {
         let local = MutationModel { sites: t.sites(), ..*model };
-        let m = place(t.genealogy(), &local, demes.clone(), rng)?;
+        let m = place(t.genealogy(), &local, demes.clone(), rng).map_err(|e| match e {
+            Error::TooManyMutations { mutations, .. } => {
+                Error::TooManyOnLocalTree { mutations, left: t.left(), right: t.right() }
+            }
+            e => e,
+        })?;
         positions.extend(m.positions.iter().map(|p| p + t.left()));
         for site in 0..m.haplotypes.sites() {
             haplotypes.push_site_bits(m.haplotypes.site_bits(site));
