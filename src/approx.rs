@@ -328,6 +328,9 @@ fn deme_models(scenario: &Scenario) -> Result<Vec<DemeModel>, ApproxError> {
 /// Otherwise the exact engine: since_founding, infinite mean, a periodic law with migration
 /// or mixed residues, small N, dormancy comparable to N.
 pub fn choose(scenario: &Scenario) -> (EngineKind, String) {
+    if scenario.recombination().is_some() {
+        return (EngineKind::Exact, "exact engine: only it models recombination within a locus".to_string());
+    }
     let models = match deme_models(scenario) {
         Ok(m) => m,
         Err(e) => return (EngineKind::Exact, format!("exact engine: no limit applies: {e}")),
@@ -386,6 +389,12 @@ pub fn resolve(choice: EngineChoice, scenario: &Scenario) -> Result<EngineDecisi
             EngineDecision { kind: EngineKind::Exact, reason: "exact engine (requested)".to_string() }
         }
         EngineChoice::Approx => {
+            if scenario.recombination().is_some() {
+                return Err(ApproxError::OutOfDomain {
+                    deme: "all".to_string(),
+                    reason: "the approximate engine has no recombination: use --engine exact or auto".to_string(),
+                });
+            }
             deme_models(scenario)?;
             let reason = match choose(scenario) {
                 (EngineKind::Approx, why) => format!("{why} (requested)"),

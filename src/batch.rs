@@ -5,7 +5,9 @@
 //! result does not depend on the number of threads, on the order in which threads pick up
 //! work, or on which other replicates are run (shards, resumed runs).
 
+use crate::arg::{Arg, ArgSimulator};
 use crate::engine::Simulator;
+use crate::genealogy::Genealogy;
 use crate::scenario::Scenario;
 use rand::SeedableRng;
 use rand::rngs::ChaCha8Rng;
@@ -140,21 +142,27 @@ pub fn locus_rng(key: &[u8; 32], replicate: u64, locus: u64) -> ChaCha8Rng {
 /// What to keep of each locus besides its summary.
 #[derive(Debug, Clone, Copy, Default)]
 pub struct Keep {
-    /// Newick text of the genealogy.
+    /// Newick text of the genealogy (of every local tree, with recombination).
     pub trees: bool,
     /// Positions and haplotypes of the mutations.
     pub mutations: bool,
+    /// r² by distance ([`ld_bins`]), with recombination and a mutation model.
+    pub ld: bool,
 }
 
 /// The outcome of one locus of one replicate.
+///
+/// With recombination `tmrca` and `total_length` are means over the local trees weighted by
+/// the number of sites each holds for (`tmrca` empty when any local tree is a forest), and
+/// `roots` is the largest number of roots of a local tree.
 #[derive(Debug, Clone)]
 pub struct LocusOutcome {
     /// Time of the MRCA, when the genealogy is a tree.
-    pub tmrca: Option<u64>,
+    pub tmrca: Option<f64>,
     /// Number of roots.
     pub roots: usize,
     /// Sum of branch lengths.
-    pub total_length: u64,
+    pub total_length: f64,
     /// Lineage steps.
     pub jumps: u64,
     /// Statistics of the mutations, when the scenario has a mutation model.
@@ -163,13 +171,82 @@ pub struct LocusOutcome {
     pub newick: Option<String>,
     /// Mutations, when kept.
     pub mutations: Option<crate::mutation::Mutations>,
+    /// Recombination breakpoints ([`Arg::breakpoints`]), with recombination.
+    pub breakpoints: Option<u64>,
+    /// Crossovers on the marginal trees ([`Arg::tree_crossovers`]), with recombination.
+    pub tree_crossovers: Option<u64>,
+    /// r² by distance over [`ld_bins`] of the sequence, when kept.
+    pub ld: Option<Vec<crate::arg::LdBin>>,
 }
 
-/// Simulates every locus of one replicate: genealogy, then mutations and statistics, each
-/// locus from its own stream [`locus_rng`]. Loci run in parallel when there are several.
+impl LocusOutcome {
+    /// The outcome of a locus without recombination.
+    pub fn of_genealogy(g: &Genealogy, stats: Option<crate::stats::SampleStats>) -> Self {
+        LocusOutcome {
+            tmrca: g.tmrca().map(|t| t as f64),
+            roots: g.roots().len(),
+            total_length: g.total_length() as f64,
+            jumps: g.steps(),
+            stats,
+            newick: None,
+            mutations: None,
+            breakpoints: None,
+            tree_crossovers: None,
+            ld: None,
+        }
+    }
+
+    /// The outcome of a locus with recombination: tree summaries weighted by interval length.
+    pub fn of_arg(arg: &Arg, stats: Option<crate::stats::SampleStats>) -> Self {
+        let sites = arg.sites() as f64;
+        let weighted = |f: &dyn Fn(&Genealogy) -> Option<u64>| -> Option<f64> {
+            arg.trees().iter().map(|t| f(t.genealogy()).map(|x| x as f64 * t.sites() as f64)).sum::<Option<f64>>()
+        };
+        LocusOutcome {
+            tmrca: weighted(&|g| g.tmrca()).map(|x| x / sites),
+            roots: arg.trees().iter().map(|t| t.genealogy().roots().len()).max().unwrap_or(0),
+            total_length: weighted(&|g| Some(g.total_length())).unwrap_or(0.0) / sites,
+            jumps: arg.steps(),
+            stats,
+            newick: None,
+            mutations: None,
+            breakpoints: Some(arg.breakpoints() as u64),
+            tree_crossovers: Some(arg.tree_crossovers()),
+            ld: None,
+        }
+    }
+}
+
+/// Edges of the distance bins of `ld.tsv` for a sequence of `sites` sites: 1, 2, 5, 10, 20,
+/// 50, ... up to half of `sites`, then `sites` (distances between sites are 1..sites-1), so
+/// that the last bin spans at least a factor of 2.
+pub fn ld_bins(sites: u64) -> Vec<u64> {
+    let mut edges = Vec::new();
+    let mut decade = 1u64;
+    'grid: loop {
+        for m in [1, 2, 5] {
+            let e = decade.saturating_mul(m);
+            if e.saturating_mul(2) > sites {
+                break 'grid;
+            }
+            edges.push(e);
+        }
+        decade = decade.saturating_mul(10);
+    }
+    if edges.is_empty() {
+        edges.push(1);
+    }
+    edges.push(sites.max(2));
+    edges
+}
+
+/// Simulates every locus of one replicate: genealogy (the ARG engine when the scenario has
+/// recombination), then mutations and statistics, each locus from its own stream
+/// [`locus_rng`]. Loci run in parallel when there are several.
 ///
 /// `approx`: the continuous-time approximate engine to use instead of the exact one (see
-/// [`crate::approx`]), or `None` for the exact engine.
+/// [`crate::approx`]), or `None` for the exact engine; it has no recombination, so it is
+/// only used without it.
 pub fn simulate_replicate(
     sim: &mut Simulator,
     scenario: &Scenario,
@@ -179,31 +256,47 @@ pub fn simulate_replicate(
     labels: &[String],
     approx: Option<&crate::approx::ApproxModel>,
 ) -> Result<Vec<LocusOutcome>, crate::mutation::Error> {
+    let demes: Vec<u32> = scenario.samples().iter().map(|s| s.deme as u32).collect();
     let one = |sim: &mut Simulator, locus: u64| -> Result<LocusOutcome, crate::mutation::Error> {
         let mut rng = locus_rng(key, replicate, locus);
-        let g = match approx {
-            Some(model) => model.simulate(&mut rng),
-            None => sim.simulate(scenario, &mut rng),
+        let mut newick = String::new();
+        let (mut out, mutations) = match scenario.recombination() {
+            Some(config) => {
+                let arg = ArgSimulator::new().simulate(scenario, config, &mut rng);
+                let mutations = match scenario.mutation() {
+                    Some(m) => Some(crate::mutation::place_along(&arg, m, demes.clone(), &mut rng)?),
+                    None => None,
+                };
+                if keep.trees {
+                    arg.write_newick(labels, replicate, &mut newick);
+                }
+                (LocusOutcome::of_arg(&arg, None), mutations)
+            }
+            None => {
+                let g = match approx {
+                    Some(model) => model.simulate(&mut rng),
+                    None => sim.simulate(scenario, &mut rng),
+                };
+                let mutations = match scenario.mutation() {
+                    Some(m) => Some(crate::mutation::place(&g, m, demes.clone(), &mut rng)?),
+                    None => None,
+                };
+                if keep.trees {
+                    g.write_newick(labels, replicate, &mut newick);
+                }
+                (LocusOutcome::of_genealogy(&g, None), mutations)
+            }
         };
-        let demes: Vec<u32> = scenario.samples().iter().map(|s| s.deme as u32).collect();
-        let mutations = match scenario.mutation() {
-            Some(m) => Some(crate::mutation::place(&g, m, demes, &mut rng)?),
-            None => None,
-        };
-        let newick = keep.trees.then(|| {
-            let mut s = String::new();
-            g.write_newick(labels, replicate, &mut s);
-            s
-        });
-        Ok(LocusOutcome {
-            tmrca: g.tmrca(),
-            roots: g.roots().len(),
-            total_length: g.total_length(),
-            jumps: g.steps(),
-            stats: mutations.as_ref().map(|m| crate::stats::SampleStats::from_haplotypes(&m.haplotypes)),
-            newick,
-            mutations: if keep.mutations { mutations } else { None },
-        })
+        out.stats = mutations.as_ref().map(|m| crate::stats::SampleStats::from_haplotypes(&m.haplotypes));
+        out.newick = keep.trees.then_some(newick);
+        if let (true, Some(config), Some(m)) = (keep.ld, scenario.recombination(), &mutations) {
+            let h = &m.haplotypes;
+            let rows: Vec<Vec<u8>> =
+                (0..h.samples()).map(|s| (0..h.sites()).map(|j| u8::from(h.get(s, j))).collect()).collect();
+            out.ld = Some(crate::arg::ld_decay(&m.positions, &rows, &ld_bins(config.sites())));
+        }
+        out.mutations = if keep.mutations { mutations } else { None };
+        Ok(out)
     };
     let loci = scenario.loci();
     if loci == 1 {

@@ -72,6 +72,18 @@ pub enum Error {
         /// Sites available.
         sites: u64,
     },
+    /// More mutations than sites on one local tree of a recombining locus.
+    #[error(
+        "{mutations} mutations fell on the local tree of sites {left}..{right} ({} sites): the infinite-sites model needs many more sites than mutations on every local tree (lower the mutation or recombination rate)", right - left
+    )]
+    TooManyOnLocalTree {
+        /// Mutations drawn on the tree.
+        mutations: u64,
+        /// First site of the tree's interval (0-based).
+        left: u64,
+        /// One past its last site.
+        right: u64,
+    },
 }
 
 /// The mutations of one locus: sorted 1-based positions and the haplotype matrix.
@@ -189,6 +201,37 @@ pub fn place_with<R: Rng + ?Sized>(
         haplotypes.push_site_bits(&below[child * words..(child + 1) * words]);
     }
     Ok(Mutations { positions: sites.into_iter().map(|(p, _)| p).collect(), haplotypes })
+}
+
+/// Places mutations along an ancestral recombination graph: each local tree receives the
+/// mutations of its own interval of sites, as [`place`] with `sites = right - left`, drawn
+/// tree by tree from left to right; positions are shifted by `left`, so they stay distinct,
+/// increasing and in 1..=L over the whole sequence. The haplotype matrix joins the trees'.
+///
+/// Infinite sites holds per interval: more mutations than sites on one local tree is
+/// [`Error::TooManyOnLocalTree`].
+pub fn place_along<R: Rng + ?Sized>(
+    arg: &crate::arg::Arg,
+    model: &MutationModel,
+    demes: Vec<u32>,
+    rng: &mut R,
+) -> Result<Mutations, Error> {
+    let mut positions = Vec::new();
+    let mut haplotypes = Haplotypes::new(demes.clone());
+    for t in arg.trees() {
+        let local = MutationModel { sites: t.sites(), ..*model };
+        let m = place(t.genealogy(), &local, demes.clone(), rng).map_err(|e| match e {
+            Error::TooManyMutations { mutations, .. } => {
+                Error::TooManyOnLocalTree { mutations, left: t.left(), right: t.right() }
+            }
+            e => e,
+        })?;
+        positions.extend(m.positions.iter().map(|p| p + t.left()));
+        for site in 0..m.haplotypes.sites() {
+            haplotypes.push_site_bits(m.haplotypes.site_bits(site));
+        }
+    }
+    Ok(Mutations { positions, haplotypes })
 }
 
 #[cfg(test)]

@@ -109,6 +109,10 @@ pub fn run(
         "a null distribution needs a mutation model: add `mutation:` to the scenario"
     );
     ensure!(cfg.chunk >= 1, "--chunk must be at least 1");
+    ensure!(
+        scenario.recombination().is_none() || cfg.count == Count::Poisson,
+        "a fixed number of mutations is not implemented with recombination: drop `recombination:` or the fixed count"
+    );
     let n = scenario.samples().len();
     let mut columns = replicate_columns(scenario);
     columns.extend((1..n).map(|i| format!("xi_{i}")));
@@ -215,15 +219,8 @@ fn replicate_with(
             let demes: Vec<u32> = sc.samples().iter().map(|x| x.deme as u32).collect();
             let model = sc.mutation().expect("checked by run");
             let m = crate::mutation::place_with(&g, model, Count::Fixed(s), demes, &mut rng)?;
-            Ok(vec![batch::LocusOutcome {
-                tmrca: g.tmrca(),
-                roots: g.roots().len(),
-                total_length: g.total_length(),
-                jumps: g.steps(),
-                stats: Some(crate::stats::SampleStats::from_haplotypes(&m.haplotypes)),
-                newick: None,
-                mutations: None,
-            }])
+            let stats = crate::stats::SampleStats::from_haplotypes(&m.haplotypes);
+            Ok(vec![batch::LocusOutcome::of_genealogy(&g, Some(stats))])
         }
     }
 }

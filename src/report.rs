@@ -314,7 +314,7 @@ pub fn render_summary(summary: &SimulationSummary) -> String {
 }
 
 /// Files always written by [`simulate_to_dir`]; `sfs.tsv` joins them with a mutation model,
-/// `loci.tsv` and `vcf/` on request.
+/// [`LD_FILE`] with recombination and a mutation model, `loci.tsv` and `vcf/` on request.
 pub const SIMULATE_FILES: [&str; 3] = ["replicates.tsv", "trees.nwk", "summary.json"];
 
 /// Optional outputs of `simulate`.
@@ -336,7 +336,9 @@ pub struct SimulateOptions {
 /// columns of [`crate::stats::stat_columns`]; with several loci also the mean and variance
 /// across loci of π, S and Tajima's D. With several loci `tmrca` and `total_length` are means
 /// over loci (`tmrca` empty if any locus is a forest), `roots` the largest number of roots
-/// and `jumps` the sum.
+/// and `jumps` the sum. With recombination `breakpoints` comes last (summed over loci), and
+/// `tmrca`, `total_length` of a locus are means over its local trees weighted by their
+/// number of sites ([`crate::batch::LocusOutcome`]).
 pub fn replicate_columns(scenario: &crate::scenario::Scenario) -> Vec<String> {
     let mut cols: Vec<String> = ReplicateRow::HEADER.iter().map(|s| s.to_string()).collect();
     if scenario.mutation().is_some() {
@@ -348,6 +350,9 @@ pub fn replicate_columns(scenario: &crate::scenario::Scenario) -> Vec<String> {
                 cols.push(format!("{c}_locus_var"));
             }
         }
+    }
+    if scenario.recombination().is_some() {
+        cols.push("breakpoints".to_string());
     }
     cols
 }
@@ -367,12 +372,12 @@ fn mean_var(xs: &[f64]) -> (Option<f64>, Option<f64>) {
 /// The values of [`replicate_columns`] for one replicate's loci.
 pub fn replicate_values(replicate: u64, loci: &[crate::batch::LocusOutcome], n_demes: usize) -> Vec<Option<f64>> {
     let k = loci.len() as f64;
-    let tmrca: Option<f64> = loci.iter().map(|l| l.tmrca.map(|t| t as f64)).sum::<Option<f64>>().map(|s| s / k);
+    let tmrca: Option<f64> = loci.iter().map(|l| l.tmrca).sum::<Option<f64>>().map(|s| s / k);
     let mut v = vec![
         Some(replicate as f64),
         tmrca,
         loci.iter().map(|l| l.roots).max().map(|r| r as f64),
-        Some(loci.iter().map(|l| l.total_length as f64).sum::<f64>() / k),
+        Some(loci.iter().map(|l| l.total_length).sum::<f64>() / k),
         Some(loci.iter().map(|l| l.jumps as f64).sum()),
     ];
     let stats: Vec<crate::stats::SampleStats> = loci.iter().filter_map(|l| l.stats.clone()).collect();
@@ -388,6 +393,9 @@ pub fn replicate_values(replicate: u64, loci: &[crate::batch::LocusOutcome], n_d
                 v.push(var);
             }
         }
+    }
+    if loci.iter().any(|l| l.breakpoints.is_some()) {
+        v.push(Some(loci.iter().filter_map(|l| l.breakpoints).sum::<u64>() as f64));
     }
     v
 }
@@ -451,7 +459,12 @@ pub fn simulate_to_dir(
         crate::vcf_export::columns(scenario.samples(), options.diploid)?;
         fs::create_dir_all(&vcf_dir).with_context(|| format!("creating {}", vcf_dir.display()))?;
     }
-    let keep = crate::batch::Keep { trees: true, mutations: options.vcf };
+    let ld_edges = match (scenario.recombination(), mutation) {
+        (Some(r), true) => Some(crate::batch::ld_bins(r.sites())),
+        _ => None,
+    };
+    let keep = crate::batch::Keep { trees: true, mutations: options.vcf, ld: ld_edges.is_some() };
+    let mut ld_acc = LdAccumulator::new(ld_edges.as_deref().unwrap_or(&[]));
     let key = crate::batch::master_key(scenario.seed());
     let mut acc = ColumnAccumulator::new(&columns[1..].iter().map(String::as_str).collect::<Vec<_>>());
     let mut sfs_acc = vec![Vec::new(); n.saturating_sub(1)];
@@ -486,9 +499,9 @@ pub fn simulate_to_dir(
                     let row = [
                         Some(rep as f64),
                         Some((j + 1) as f64),
-                        l.tmrca.map(|t| t as f64),
+                        l.tmrca,
                         Some(l.roots as f64),
-                        Some(l.total_length as f64),
+                        Some(l.total_length),
                         st.map(|s| s.segregating_sites as f64),
                         st.and_then(|s| s.theta_pi),
                         st.and_then(|s| s.tajima_d),
@@ -520,6 +533,9 @@ pub fn simulate_to_dir(
                 let p = vcf_dir.join(format!("replicate_{rep}.vcf"));
                 write_atomic(&p, &buf).with_context(|| format!("writing {}", p.display()))?;
             }
+            for bins in loci_out.iter().filter_map(|l| l.ld.as_ref()) {
+                ld_acc.add(bins);
+            }
             forests += u64::from(loci_out.iter().any(|l| l.roots > 1));
             acc.push(&values[1..]);
             Ok(())
@@ -548,10 +564,56 @@ pub fn simulate_to_dir(
     if let Some(f) = loci_file {
         f.finish()?;
     }
+    if ld_edges.is_some() {
+        let p = dir.join(LD_FILE);
+        write_atomic(&p, ld_acc.to_tsv().as_bytes()).with_context(|| format!("writing {}", p.display()))?;
+    }
     let json = serde_json::to_string_pretty(&summary)?;
     let p = dir.join(SIMULATE_FILES[2]);
     write_atomic(&p, json.as_bytes()).with_context(|| format!("writing {}", p.display()))?;
     Ok(summary)
+}
+
+/// Decay of linkage disequilibrium pooled over replicates, written by [`simulate_to_dir`] when
+/// the scenario has recombination and a mutation model.
+pub const LD_FILE: &str = "ld.tsv";
+
+/// r² by distance pooled over loci and replicates: per bin, the mean over all pairs of
+/// polymorphic sites (not the mean of per-replicate means), summed serially in replicate order.
+#[derive(Debug, Clone, Default)]
+pub struct LdAccumulator {
+    edges: Vec<u64>,
+    sum: Vec<f64>,
+    pairs: Vec<u64>,
+}
+
+impl LdAccumulator {
+    /// An accumulator for the bins between consecutive `edges`.
+    pub fn new(edges: &[u64]) -> Self {
+        let k = edges.len().saturating_sub(1);
+        LdAccumulator { edges: edges.to_vec(), sum: vec![0.0; k], pairs: vec![0; k] }
+    }
+
+    /// Adds one locus' bins (from [`crate::arg::ld_decay`] over the same edges).
+    pub fn add(&mut self, bins: &[crate::arg::LdBin]) {
+        for (k, b) in bins.iter().enumerate() {
+            if b.pairs > 0 {
+                self.sum[k] += b.mean_r2 * b.pairs as f64;
+                self.pairs[k] += b.pairs;
+            }
+        }
+    }
+
+    /// `bin_low bin_high pairs mean_r2` rows (distances in sites, `bin_high` exclusive;
+    /// `mean_r2` empty for a bin without pairs).
+    pub fn to_tsv(&self) -> String {
+        let mut s = String::from("bin_low\tbin_high\tpairs\tmean_r2\n");
+        for k in 0..self.sum.len() {
+            let mean = (self.pairs[k] > 0).then(|| self.sum[k] / self.pairs[k] as f64);
+            s.push_str(&format!("{}\t{}\t{}\t{}\n", self.edges[k], self.edges[k + 1], self.pairs[k], tsv_value(mean)));
+        }
+        s
+    }
 }
 
 /// One line of the simulated-versus-predicted table.

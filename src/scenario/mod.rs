@@ -11,6 +11,7 @@ pub mod raw;
 
 pub use raw::RawScenario;
 
+use crate::arg::ArgConfig;
 use crate::demography::{Migration, SizeEpoch, SizeHistory};
 use crate::dormancy::{self, Dormancy, SeedAge};
 use crate::mutation::MutationModel;
@@ -144,6 +145,7 @@ pub struct Scenario {
     seed_ages: Vec<((usize, u64), SeedAge)>,
     mutation: Option<MutationModel>,
     loci: u64,
+    recombination: Option<ArgConfig>,
     normalized: RawScenario,
 }
 
@@ -209,6 +211,11 @@ impl Scenario {
     /// Independent loci per replicate.
     pub fn loci(&self) -> u64 {
         self.loci
+    }
+    /// Recombination within each locus: `mutation.sites` sites and the rate per adjacent pair
+    /// of sites per generation of reproduction, when the scenario has a `recombination` key.
+    pub fn recombination(&self) -> Option<&ArgConfig> {
+        self.recombination.as_ref()
     }
     /// The scenario as parsed, with defaults filled in (for reports).
     pub fn normalized(&self) -> &RawScenario {
@@ -290,6 +297,7 @@ impl Validator {
             Some(l) => l.value,
             None => 1,
         };
+        let recombination = raw.recombination.as_ref().and_then(|r| self.recombination(r, mutation.as_ref(), raw));
         if !self.issues.is_empty() {
             return None;
         }
@@ -309,8 +317,44 @@ impl Validator {
             seed_ages,
             mutation,
             loci,
+            recombination,
             normalized,
         })
+    }
+
+    fn recombination(
+        &mut self,
+        r: &Spanned<raw::RawRecombination>,
+        mutation: Option<&MutationModel>,
+        raw: &RawScenario,
+    ) -> Option<ArgConfig> {
+        let line = line_of(r);
+        let rate = r.value.rate;
+        let rate_ok = rate.is_finite() && (0.0..=1.0).contains(&rate);
+        if !rate_ok {
+            self.err(
+                "recombination.rate",
+                line,
+                format!("{rate} is not allowed: a rate per adjacent pair of sites per generation in [0, 1] is needed"),
+            );
+        }
+        if raw.mutation.is_none() {
+            self.err(
+                "recombination",
+                line,
+                "recombination needs the sequence length `mutation.sites`: add `mutation: {rate: ..., sites: ...}` \
+                 (the rate may be 0)",
+            );
+        }
+        // A `mutation` section that failed has reported its own issues.
+        let m = mutation.filter(|_| rate_ok)?;
+        match ArgConfig::new(m.sites(), rate) {
+            Ok(c) => Some(c),
+            Err(e) => {
+                self.err("recombination", line, e.to_string());
+                None
+            }
+        }
     }
 
     fn mutation(&mut self, m: &Spanned<raw::RawMutation>) -> Option<MutationModel> {
@@ -823,6 +867,20 @@ impl fmt::Display for Scenario {
             }
         } else {
             writeln!(f, "no migration")?;
+        }
+        if let Some(r) = &self.recombination {
+            let rate = r.recombination_rate();
+            let gaps = r.sites().saturating_sub(1) as f64;
+            writeln!(
+                f,
+                "recombination rate {rate:e} per adjacent pair of sites per generation of reproduction, {} sites",
+                r.sites()
+            )?;
+            for d in &self.demes {
+                if let Some(n) = d.size.as_constant() {
+                    writeln!(f, "  deme {}: rho = 2 N r (L - 1) = {:.4}", d.name, 2.0 * n as f64 * rate * gaps)?;
+                }
+            }
         }
         write!(f, "{} sampled individuals", self.samples.len())
     }

@@ -37,6 +37,17 @@ pub struct RawScenario {
     /// Independent (unlinked) loci per replicate (default 1).
     #[serde(default, skip_serializing_if = "Option::is_none")]
     pub loci: Option<Spanned<u64>>,
+    /// Recombination within each locus; none when absent.
+    #[serde(default, skip_serializing_if = "Option::is_none")]
+    pub recombination: Option<Spanned<RawRecombination>>,
+}
+
+/// Recombination within a locus (the sequence length is `mutation.sites`).
+#[derive(Debug, Clone, Deserialize, Serialize)]
+#[serde(deny_unknown_fields)]
+pub struct RawRecombination {
+    /// Crossovers per adjacent pair of sites per generation of reproduction.
+    pub rate: f64,
 }
 
 /// Mutation rates per site per generation, and the sequence length.

@@ -120,6 +120,20 @@ impl Prediction {
 
 /// Predictions for a scenario (pure; never simulates).
 pub fn predict(s: &Scenario) -> Prediction {
+    let mut out = predict_without_recombination(s);
+    if s.recombination().is_some_and(|r| r.recombination_rate() > 0.0 && r.sites() > 1) {
+        // Every site has the genealogy of the model without recombination, so means of sums
+        // over sites still hold; haplotype counts and Var[S] depend on the linkage.
+        out.haplotypes_mean = None;
+        out.segregating_sites_var = None;
+        out.notes.push(
+            "recombination within the locus: means of T_MRCA, length, S, pi and the SFS still apply (each site has the genealogy of the model without recombination); E[haplotypes] and Var[S] assume no recombination, so none is given".into(),
+        );
+    }
+    out
+}
+
+fn predict_without_recombination(s: &Scenario) -> Prediction {
     let mut out = Prediction::default();
     let n = s.samples().len() as u32;
     let demes = s.demes();
