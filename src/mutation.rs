@@ -255,7 +255,7 @@ mod tests {
         assert_eq!(m.positions.len(), m.haplotypes.sites());
         for site in 0..m.haplotypes.sites() {
             let c = m.haplotypes.derived_count(site);
-            assert!(c >= 1 && c <= 5, "a mutation inside a tree is carried by 1..n-1 samples");
+            assert!((1..=5).contains(&c), "a mutation inside a tree is carried by 1..n-1 samples");
         }
     }
 

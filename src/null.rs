@@ -484,7 +484,7 @@ pub fn test(observed: &ObservedData, null: &NullTable) -> Result<TestReport> {
         let rows: Vec<Vec<f64>> = (0..b).map(|r| xi_cols.iter().map(|c| c[r]).collect()).collect();
         let (kind, obs, rows) = match (&observed.sfs, &observed.eta) {
             (Some(xi), _) if xi.len() == xi_cols.len() => ("unfolded", xi.clone(), rows),
-            (_, Some(eta)) if eta.len() == (xi_cols.len() + 1) / 2 => {
+            (_, Some(eta)) if eta.len() == xi_cols.len().div_ceil(2) => {
                 ("folded", eta.clone(), rows.iter().map(|r| fold(r)).collect())
             }
             _ => {

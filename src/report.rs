@@ -384,8 +384,8 @@ pub fn replicate_values(replicate: u64, loci: &[crate::batch::LocusOutcome], n_d
     if !stats.is_empty() {
         v.extend(crate::stats::combined_column_values(&stats, n_demes));
         if loci.len() > 1 {
-            let pick: [&dyn Fn(&crate::stats::SampleStats) -> Option<f64>; 3] =
-                [&|s| s.theta_pi, &|s| Some(s.segregating_sites as f64), &|s| s.tajima_d];
+            type Pick = fn(&crate::stats::SampleStats) -> Option<f64>;
+            let pick: [Pick; 3] = [|s| s.theta_pi, |s| Some(s.segregating_sites as f64), |s| s.tajima_d];
             for f in pick {
                 let xs: Vec<f64> = stats.iter().filter_map(f).collect();
                 let (m, var) = mean_var(&xs);

@@ -32,7 +32,8 @@ fn naive_replicate(s: &Scenario, rng: &mut impl Rng) -> Outcome {
     let horizon = s.horizon();
     let demes = s.demes();
     // parent[(deme, t, i)] = Some((deme', t', i')) or None beyond the horizon.
-    let mut parent: HashMap<(usize, u64, u64), Option<(usize, u64, u64)>> = HashMap::new();
+    type Individual = (usize, u64, u64);
+    let mut parent: HashMap<Individual, Option<Individual>> = HashMap::new();
     for t in 0..=horizon {
         for (d, deme) in demes.iter().enumerate() {
             let n = deme.size().at(t);

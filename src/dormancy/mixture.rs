@@ -22,7 +22,10 @@ impl Mixture {
     /// Builds the mixture from (weight, law) pairs; weights are normalised.
     pub fn new(parts: Vec<(f64, Dormancy)>) -> Result<Self, Error> {
         let total: f64 = parts.iter().map(|(w, _)| *w).sum();
-        if parts.is_empty() || parts.iter().any(|(w, _)| !w.is_finite() || *w < 0.0) || !(total > 0.0) {
+        if parts.is_empty()
+            || parts.iter().any(|(w, _)| !w.is_finite() || *w < 0.0)
+            || total.partial_cmp(&0.0) != Some(std::cmp::Ordering::Greater)
+        {
             return Err(Error::BadWeights { law: "mixture" });
         }
         if parts.iter().any(|(_, d)| d.is_time_dependent()) {

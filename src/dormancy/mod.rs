@@ -292,10 +292,10 @@ pub(crate) mod test_util {
             let t = law.tail(k);
             assert!((t - (1.0 - cum)).abs() < tol, "k = {k}: tail {t} vs 1 - cdf {}", 1.0 - cum);
         }
-        if let (Some(m), Some(max)) = (law.mean(), law.max_lookback()) {
-            if max <= kmax {
-                assert!((m - mean).abs() < tol * m, "mean {m} vs sum of tails {mean}");
-            }
+        if let (Some(m), Some(max)) = (law.mean(), law.max_lookback())
+            && max <= kmax
+        {
+            assert!((m - mean).abs() < tol * m, "mean {m} vs sum of tails {mean}");
         }
     }
 }

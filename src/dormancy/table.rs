@@ -25,7 +25,7 @@ impl Table {
         let total: f64 = weights.iter().sum();
         if weights.is_empty()
             || weights.iter().any(|w| !w.is_finite() || *w < 0.0)
-            || !(total > 0.0)
+            || total.partial_cmp(&0.0) != Some(std::cmp::Ordering::Greater)
             || !total.is_finite()
         {
             return Err(Error::BadWeights { law: "table" });

@@ -233,11 +233,11 @@ fn one_deme(s: &Scenario, out: &mut Prediction, law: &Dormancy, big_n: u64, n: u
                 let (mu_r, mu_d) = (m.sites() as f64 * m.reproduction_rate(), m.sites() as f64 * m.dormant_rate());
                 out.segregating_sites_mean =
                     p(loci * nf * (mu_r * e.active_length + mu_d * e.dormant_length), src, false);
-                if mu_r > 0.0 {
-                    if let Ok(sfs) = sbc.expected_sfs(n, 2.0 * nf * mu_r, mu_d / mu_r) {
-                        out.sfs_expected = Some(sfs.iter().map(|x| x * loci).collect());
-                        out.sfs_source = Some(src.to_string());
-                    }
+                if mu_r > 0.0
+                    && let Ok(sfs) = sbc.expected_sfs(n, 2.0 * nf * mu_r, mu_d / mu_r)
+                {
+                    out.sfs_expected = Some(sfs.iter().map(|x| x * loci).collect());
+                    out.sfs_source = Some(src.to_string());
                 }
             }
         }
