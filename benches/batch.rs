@@ -2,7 +2,7 @@
 //! scaling with N and n (fitted slopes), threads, null throughput, and peak memory.
 //!
 //! Run `cargo bench --bench batch` (all sections; a few minutes) or pass a section name:
-//! `forward`, `scaling`, `threads`, `null`, `memory`. Figures go to docs/performance.md.
+//! `forward`, `scaling`, `threads`, `null`, `loci`, `memory`. Figures go to docs/performance.md.
 
 use rand::{RngExt, SeedableRng, rngs::ChaCha8Rng};
 use seedline::batch::{BatchConfig, Keep, master_key, replicate_rng, simulate_replicate};
@@ -145,9 +145,9 @@ fn threads_and_null() {
     let s = scenario(
         "demes: [{name: a, size: 1000, dormancy: {law: geometric, mean: 2}}]\nsamples: [{deme: a, count: 50}]\nmutation: {rate: 1.0e-7, sites: 100000}\n",
     );
-    let reps = 400;
+    let reps = 2000;
     let (mut one, mut two) = (Vec::new(), Vec::new());
-    for _ in 0..5 {
+    for _ in 0..3 {
         one.push(batch_seconds(&s, reps, 1));
         two.push(batch_seconds(&s, reps, 2));
     }
@@ -157,6 +157,30 @@ fn threads_and_null() {
         reps as f64 / a,
         reps as f64 / b,
         a / b
+    );
+}
+
+/// Cost of 1000 unlinked loci of n = 50 against one locus (issue: many loci per replicate).
+fn loci() {
+    let base = "demes: [{name: a, size: 1000, dormancy: {law: geometric, mean: 2}}]\nsamples: [{deme: a, count: 50}]\nmutation: {rate: 1.0e-7, sites: 10000}\n";
+    let one = scenario(base);
+    let many = scenario(&format!("loci: 1000\n{base}"));
+    let key = master_key(1);
+    let labels: Vec<String> = one.samples().iter().map(|x| x.label.clone()).collect();
+    let mut sim = Simulator::new();
+    let t0 = Instant::now();
+    for rep in 0..200 {
+        black_box(simulate_replicate(&mut sim, &one, &key, rep, Keep::default(), &labels, None).unwrap());
+    }
+    let single = t0.elapsed().as_secs_f64() / 200.0;
+    let t1 = Instant::now();
+    for rep in 0..3 {
+        black_box(simulate_replicate(&mut sim, &many, &key, rep, Keep::default(), &labels, None).unwrap());
+    }
+    let thousand = t1.elapsed().as_secs_f64() / 3.0;
+    println!(
+        "loci: n = 50, N = 1000, geometric mean 2: one locus {single:.3e} s, 1000 loci {thousand:.3e} s per replicate; ratio {:.0} (both threads used for the loci)",
+        thousand / single
     );
 }
 
@@ -191,6 +215,9 @@ fn main() {
     }
     if want("threads") || want("null") {
         threads_and_null();
+    }
+    if want("loci") {
+        loci();
     }
     if want("memory") {
         memory();
