@@ -726,6 +726,12 @@ pub fn render_prediction(scenario: &crate::scenario::Scenario, p: &crate::theory
             p.sfs_source.as_deref().unwrap_or("")
         ));
     }
+    for (lag, pr) in &p.related_by_lag {
+        s.push_str(&format!(
+            "P(ever related at lag {lag}) {:>10}  H_lag/(N+S-1) (theory reference §4, §7.1)\n",
+            fmt_num(*pr)
+        ));
+    }
     for (a, b, t) in &p.deme_pair_times {
         s.push_str(&format!("E[T] pair {a}-{b}: {}\n", fmt_num(*t)));
     }

@@ -65,6 +65,9 @@ pub struct Prediction {
     pub haplotypes_mean: Option<Predicted>,
     /// Probability that two lineages of the present ever meet, when below 1.
     pub pair_meet_probability: Option<Predicted>,
+    /// Forest regime: probability that individuals `lag` generations apart ever share an
+    /// ancestor, `(lag, probability)` (H_lag/(N+S-1), theory reference §4 and §7.1).
+    pub related_by_lag: Vec<(u64, f64)>,
     /// Within- and between-deme pair times, `(deme_a, deme_b, E[T])`.
     pub deme_pair_times: Vec<(String, String, f64)>,
     /// Expected F_ST per pair of demes (ratio of expectations).
@@ -110,6 +113,7 @@ impl Prediction {
         }
         out.insert("sources".into(), Value::Object(sources));
         out.insert("exact".into(), Value::Object(exact));
+        out.insert("related_by_lag".into(), json!(self.related_by_lag));
         out.insert("deme_pair_times".into(), json!(self.deme_pair_times));
         out.insert("fst".into(), json!(self.fst));
         out.insert("regime".into(), json!(self.regime));
@@ -192,6 +196,18 @@ fn one_deme(s: &Scenario, out: &mut Prediction, law: &Dormancy, big_n: u64, n: u
                 out.notes.push(
                     "forest regime: two lineages may never meet; T_MRCA and SFS have no finite expectation".into(),
                 );
+                if let Ok(rel) = relatedness::Relatedness::new(law, relatedness::Relatedness::DEFAULT_LEN) {
+                    for lag in [1u64, 10, 100, 1000] {
+                        if let Ok(p) = rel.meet_apart(lag as usize, big_n) {
+                            out.related_by_lag.push((lag, p));
+                        }
+                    }
+                    if let Ok(c) = relatedness::related_constant(rel.asymptote().alpha(), rel.s().value) {
+                        out.notes.push(format!(
+                            "N = 1: P(related at lag n) ~ C n^(2 alpha - 1) with C = {c:.6}; the depth of the MRCA below the older individual, over n, tends to BetaPrime(alpha, 1 - 2 alpha) (Hammond & Sheffield 2013; theory reference §7.1)"
+                        ));
+                    }
+                }
             } else {
                 out.notes.push("lineages meet almost surely but E[T_2] is infinite: no mean prediction applies".into());
             }
@@ -419,6 +435,11 @@ mod tests {
         assert!(pr.regime.unwrap().contains("forest"));
         let pm = pr.pair_meet_probability.unwrap().value;
         assert!((pm - 0.445129644441 / 10.445129644441).abs() < 1e-6, "{pm}");
+        // Source: §7.4 law B alpha = 0.4, N = 1 ... here N = 10: H_n/(N+S-1) = P(0~n) S/(N+S-1)
+        // with P(0~10) = 0.278172556543 (law B table).
+        let lag10 = pr.related_by_lag.iter().find(|(l, _)| *l == 10).unwrap().1;
+        let expected = 0.278172556543 * 1.445129644441 / 10.445129644441;
+        assert!((lag10 - expected).abs() < 1e-6 * expected.max(1e-3) + 1e-7, "{lag10} vs {expected}");
         assert!(pr.tmrca_mean.is_none());
     }
 }
