@@ -6,6 +6,8 @@ use rayon::prelude::*;
 use seedline::arg::{Arg, ArgConfig, ArgSimulator};
 use seedline::batch::{master_key, replicate_rng};
 use seedline::scenario::Scenario;
+mod common;
+use common::assert_close;
 
 fn scenario(yaml: &str) -> Scenario {
     Scenario::from_yaml_str(yaml, "test").unwrap()
@@ -18,21 +20,6 @@ fn collect(s: &Scenario, config: &ArgConfig, reps: u64, f: impl Fn(&Arg) -> f64 
         .into_par_iter()
         .map_init(ArgSimulator::new, |sim, r| f(&sim.simulate(s, config, &mut replicate_rng(&key, r))))
         .collect()
-}
-
-fn mean_se(xs: &[f64]) -> (f64, f64) {
-    let n = xs.len() as f64;
-    let m = xs.iter().sum::<f64>() / n;
-    let v = xs.iter().map(|x| (x - m).powi(2)).sum::<f64>() / (n - 1.0);
-    (m, (v / n).sqrt())
-}
-
-fn assert_close(what: &str, xs: &[f64], expected: f64, k_se: f64) {
-    let (m, se) = mean_se(xs);
-    assert!(
-        (m - expected).abs() <= k_se * se,
-        "{what}: simulated mean {m} ± {se} (se), expected {expected} (within {k_se} se)"
-    );
 }
 
 #[test]

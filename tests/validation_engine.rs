@@ -8,6 +8,8 @@ use seedline::dormancy::LookBack;
 use seedline::engine::Simulator;
 use seedline::scenario::Scenario;
 use statrs::distribution::{ChiSquared, ContinuousCDF};
+mod common;
+use common::{assert_close, mean_se};
 
 fn scale() -> u64 {
     if std::env::var_os("SEEDLINE_BIG").is_some() { 10 } else { 1 }
@@ -33,21 +35,6 @@ fn collect<T: Send>(s: &Scenario, reps: u64, f: impl Fn(&seedline::genealogy::Ge
     )
     .unwrap();
     out
-}
-
-fn mean_se(xs: &[f64]) -> (f64, f64) {
-    let n = xs.len() as f64;
-    let m = xs.iter().sum::<f64>() / n;
-    let v = xs.iter().map(|x| (x - m).powi(2)).sum::<f64>() / (n - 1.0);
-    (m, (v / n).sqrt())
-}
-
-fn assert_close(what: &str, xs: &[f64], expected: f64, k_se: f64) {
-    let (m, se) = mean_se(xs);
-    assert!(
-        (m - expected).abs() <= k_se * se,
-        "{what}: simulated mean {m} ± {se} (se), expected {expected} (within {k_se} se)"
-    );
 }
 
 #[test]

@@ -6,6 +6,8 @@ use seedline::scenario::Scenario;
 use seedline::stats::{SampleStats, harmonic, harmonic_squares};
 use seedline::theory::two_lineage::PairChain;
 use statrs::distribution::{ChiSquared, ContinuousCDF};
+mod common;
+use common::mean_se;
 
 fn scenario(yaml: &str) -> Scenario {
     Scenario::from_yaml_str(yaml, "test").unwrap()
@@ -29,13 +31,6 @@ fn stats(s: &Scenario, reps: u64) -> Vec<SampleStats> {
     )
     .unwrap();
     out
-}
-
-fn mean_se(xs: &[f64]) -> (f64, f64) {
-    let n = xs.len() as f64;
-    let m = xs.iter().sum::<f64>() / n;
-    let v = xs.iter().map(|x| (x - m).powi(2)).sum::<f64>() / (n - 1.0);
-    (m, (v / n).sqrt())
 }
 
 fn close(what: &str, xs: &[f64], expected: f64, k: f64) {

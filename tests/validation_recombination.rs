@@ -11,6 +11,8 @@ use seedline::scenario::{Error, Scenario};
 use seedline::stats::harmonic;
 use seedline::theory::kingman;
 use std::path::PathBuf;
+mod common;
+use common::{assert_close, mean_se};
 
 /// One deme of `n_pop` haploids without dormancy, `n` samples, `sites` sites, mutation rate
 /// `mu` per site per generation and recombination rate `r` per gap per generation.
@@ -37,13 +39,6 @@ fn outcomes(s: &Scenario, reps: u64, keep: Keep) -> Vec<LocusOutcome> {
         .collect()
 }
 
-fn mean_se(xs: &[f64]) -> (f64, f64) {
-    let n = xs.len() as f64;
-    let m = xs.iter().sum::<f64>() / n;
-    let v = xs.iter().map(|x| (x - m).powi(2)).sum::<f64>() / (n - 1.0);
-    (m, (v / n).sqrt())
-}
-
 /// Sample variance and its standard error sqrt((m4 - s^4) / R) (delta method).
 fn var_se(xs: &[f64]) -> (f64, f64) {
     let n = xs.len() as f64;
@@ -51,14 +46,6 @@ fn var_se(xs: &[f64]) -> (f64, f64) {
     let v = xs.iter().map(|x| (x - m).powi(2)).sum::<f64>() / (n - 1.0);
     let m4 = xs.iter().map(|x| (x - m).powi(4)).sum::<f64>() / n;
     (v, ((m4 - v * v) / n).sqrt())
-}
-
-fn assert_close(what: &str, xs: &[f64], expected: f64, k_se: f64) {
-    let (m, se) = mean_se(xs);
-    assert!(
-        (m - expected).abs() <= k_se * se,
-        "{what}: simulated mean {m} ± {se} (se), expected {expected} (within {k_se} se)"
-    );
 }
 
 #[test]
