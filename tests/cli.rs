@@ -1,24 +1,7 @@
 //! End-to-end tests of the `seedline` binary: files, columns, exit codes, determinism.
 
-use std::path::{Path, PathBuf};
-use std::process::{Command, Output};
-
-fn seedline(args: &[&str]) -> Output {
-    Command::new(env!("CARGO_BIN_EXE_seedline")).args(args).output().expect("the binary runs")
-}
-
-fn tempdir(name: &str) -> PathBuf {
-    let d = std::env::temp_dir().join(format!("seedline-cli-{name}-{}", std::process::id()));
-    let _ = std::fs::remove_dir_all(&d);
-    std::fs::create_dir_all(&d).unwrap();
-    d
-}
-
-fn write(dir: &Path, name: &str, text: &str) -> String {
-    let p = dir.join(name);
-    std::fs::write(&p, text).unwrap();
-    p.display().to_string()
-}
+mod common;
+use common::{seedline, tempdir, write};
 
 #[test]
 fn simulate_the_embedded_demo() {

@@ -1,25 +1,8 @@
 //! End-to-end tests of `seedline compare` and `seedline design`: files, exit codes,
 //! independence of the thread count.
 
-use std::path::{Path, PathBuf};
-use std::process::{Command, Output};
-
-fn seedline(args: &[&str]) -> Output {
-    Command::new(env!("CARGO_BIN_EXE_seedline")).args(args).output().expect("the binary runs")
-}
-
-fn tempdir(name: &str) -> PathBuf {
-    let d = std::env::temp_dir().join(format!("seedline-abc-{name}-{}", std::process::id()));
-    let _ = std::fs::remove_dir_all(&d);
-    std::fs::create_dir_all(&d).unwrap();
-    d
-}
-
-fn write(dir: &Path, name: &str, text: &str) -> String {
-    let p = dir.join(name);
-    std::fs::write(&p, text).unwrap();
-    p.display().to_string()
-}
+mod common;
+use common::{seedline, tempdir, write};
 
 const NONE: &str = "demes:\n  - name: pond\n    size: 60\nsamples:\n  - { deme: pond, count: 6 }\nmutation: { rate: 2.0e-8, sites: 1000000 }\n";
 const GEO: &str = "demes:\n  - name: pond\n    size: 60\n    dormancy: { law: geometric, mean: { prior: log_uniform, low: 1, high: 4 } }\nsamples:\n  - { deme: pond, count: 6 }\nmutation: { rate: 2.0e-8, sites: 1000000 }\n";
