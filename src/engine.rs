@@ -90,15 +90,7 @@ impl Simulator {
                 steps += self.step(&model, &mut g, top.node, top.jumps, time, deme, rng);
                 continue;
             }
-            self.group.clear();
-            self.group.push(top);
-            while let Some(&Reverse(e)) = self.heap.peek() {
-                if e.key != top.key {
-                    break;
-                }
-                self.group.push(e);
-                self.heap.pop();
-            }
+            pop_group(&mut self.heap, top, |e| e.key, &mut self.group);
             steps += self.seat_group(&model, &mut g, time, deme, rng);
         }
         g.sort_roots();
@@ -177,6 +169,25 @@ impl Simulator {
         }
         self.heap.push(Reverse(Entry { key: model.key(t, to), node, jumps: jumps + 1, sample: false }));
         1
+    }
+}
+
+/// Collects `top` (already popped) and every queued entry with the same key into `group`:
+/// all lineages that landed on one (deme, generation). Shared with the recombination engine.
+pub(crate) fn pop_group<E: Ord + Copy>(
+    heap: &mut BinaryHeap<Reverse<E>>,
+    top: E,
+    key: impl Fn(&E) -> u64,
+    group: &mut Vec<E>,
+) {
+    group.clear();
+    group.push(top);
+    while let Some(&Reverse(e)) = heap.peek() {
+        if key(&e) != key(&top) {
+            break;
+        }
+        group.push(e);
+        heap.pop();
     }
 }
 

@@ -335,15 +335,7 @@ impl ArgSimulator {
                 self.step(&model, top.id, time, deme, rng);
                 continue;
             }
-            self.group.clear();
-            self.group.push(top);
-            while let Some(&Reverse(e)) = self.heap.peek() {
-                if e.key != top.key {
-                    break;
-                }
-                self.group.push(e);
-                self.heap.pop();
-            }
+            crate::engine::pop_group(&mut self.heap, top, |e| e.key, &mut self.group);
             self.seat_group(&model, n as u32, time, deme, rng);
         }
         self.split_gaps.sort_unstable();
