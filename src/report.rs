@@ -551,7 +551,7 @@ pub fn simulate_to_dir(
         replicates: scenario.replicates(),
         forests,
         columns: acc.summaries(),
-        comparison: compare(&acc.summaries(), &sfs_means, &prediction, scenario.replicates()),
+        comparison: compare(&acc.summaries(), &sfs_means, &prediction),
         prediction: prediction.to_json(),
         notes: prediction.notes.clone(),
         engine,
@@ -637,7 +637,6 @@ fn compare(
     columns: &[(String, ColumnSummary)],
     sfs: &[ColumnSummary],
     pr: &crate::theory::predict::Prediction,
-    replicates: u64,
 ) -> Vec<Comparison> {
     use crate::theory::predict::Predicted;
     let get = |name: &str| columns.iter().find(|(c, _)| c == name).map(|(_, s)| s.clone());
@@ -680,7 +679,6 @@ fn compare(
             );
         }
     }
-    let _ = replicates;
     rows
 }
 
