@@ -41,12 +41,21 @@ pub struct Simulator {
     group: Vec<Entry>,
     seat: Vec<u32>,
     order: Vec<u32>,
+    next: Vec<(u32, u64)>,
+    step_by_step: bool,
 }
 
 impl Simulator {
     /// A simulator with empty buffers.
     pub fn new() -> Self {
         Simulator::default()
+    }
+
+    /// A simulator that never skips ahead: without dormancy it draws every lineage's parent in
+    /// every generation, as the recombination engine does. Same law, more random numbers;
+    /// for comparisons draw by draw.
+    pub fn step_by_step() -> Self {
+        Simulator { step_by_step: true, ..Simulator::default() }
     }
 
     /// Simulates the genealogy of the scenario's sample, drawing only from `rng`.
@@ -111,7 +120,23 @@ impl Simulator {
         // Sampled individuals take the first seats.
         self.group.sort_unstable_by_key(|e| (!e.sample, e.node));
         seat_lineages(self.group.iter().map(|e| e.sample), n, &mut self.seat, &mut self.order, rng);
+        self.merge_runs(g, time, deme);
+        if model.lockstep[deme] && !self.step_by_step && self.heap.is_empty() {
+            return self.lockstep(model, g, time, deme, rng);
+        }
         let mut steps = 0;
+        for k in 0..self.next.len() {
+            let (node, jumps) = self.next[k];
+            steps += self.step(model, g, node, jumps, time, deme, rng);
+        }
+        steps
+    }
+
+    /// Turns the seated group into genealogy nodes: one individual per seat, a merge node where
+    /// several lineages share one, the sampled individual itself where it is an ancestor. The
+    /// continuing lineages, (node, jumps), are left in `self.next`.
+    fn merge_runs(&mut self, g: &mut Genealogy, time: u64, deme: usize) {
+        self.next.clear();
         let mut i = 0;
         while i < self.order.len() {
             let first = self.order[i] as usize;
@@ -121,7 +146,7 @@ impl Simulator {
                 j += 1;
             }
             let head = self.group[first];
-            let (node, jumps) = if head.sample {
+            let continuing = if head.sample {
                 for k in i + 1..j {
                     let child = self.group[self.order[k] as usize];
                     g.add_edge(head.node, child.node, child.jumps);
@@ -137,10 +162,74 @@ impl Simulator {
                 }
                 (parent, 0)
             };
-            steps += self.step(model, g, node, jumps, time, deme, rng);
+            self.next.push(continuing);
             i = j;
         }
-        steps
+    }
+
+    /// Without dormancy, in one deme of constant size with no migration and nothing else
+    /// queued, all m lineages move in lockstep, one generation per step. Instead of drawing
+    /// every parent of every generation, draw the number G of generations until the first one
+    /// in which two lineages pick the same parent,
+    ///
+    /// ```text
+    /// P(all m distinct in a generation) = p0 = prod_{i<m} (1 - i/N),   G ~ Geometric(1 - p0)
+    /// ```
+    /// then seat that generation conditioned on at least one merge: the first lineage that
+    /// joins an occupied seat is the j-th with probability prod_{i<j} (1 - i/N) (j/N) / (1 - p0),
+    /// it joins one of the j seats uniformly, and later lineages are seated as usual. This is
+    /// the law of the generation-by-generation process exactly (the discrete Wright–Fisher
+    /// chain of the theory reference §1), with one geometric draw per merge event instead of
+    /// m draws per generation. Returns the lineage steps accounted (m per generation).
+    fn lockstep<R: Rng + ?Sized>(
+        &mut self,
+        model: &Model,
+        g: &mut Genealogy,
+        mut time: u64,
+        deme: usize,
+        rng: &mut R,
+    ) -> u64 {
+        let n = model.size(deme, time);
+        let mut steps = 0u64;
+        loop {
+            let m = self.next.len();
+            if m <= 1 {
+                for k in 0..m {
+                    let (node, jumps) = self.next[k];
+                    steps += self.step(model, g, node, jumps, time, deme, rng);
+                }
+                return steps;
+            }
+            // ln p0 in log space: p0 underflows for large m.
+            let ln_p0: f64 =
+                if m as u64 > n { f64::NEG_INFINITY } else { (1..m).map(|i| (-(i as f64) / n as f64).ln_1p()).sum() };
+            let q = -ln_p0.exp_m1();
+            let gens = if q >= 1.0 {
+                1
+            } else {
+                rand_distr::Geometric::new(q)
+                    .map_or(u64::MAX, |d| rand_distr::Distribution::sample(&d, rng))
+                    .saturating_add(1)
+            };
+            if time.saturating_add(gens) > model.horizon {
+                // No two lineages meet before the horizon: each stops, as the step-by-step
+                // engine would after its last step beyond the horizon.
+                steps += m as u64 * (model.horizon - time + 1);
+                for &(node, _) in &self.next {
+                    g.add_root(node);
+                }
+                self.next.clear();
+                return steps;
+            }
+            steps += m as u64 * gens;
+            time += gens;
+            self.group.clear();
+            for &(node, jumps) in &self.next {
+                self.group.push(Entry { key: model.key(time, deme), node, jumps: jumps + gens, sample: false });
+            }
+            seat_conditioned(m, n, q, &mut self.seat, &mut self.order, rng);
+            self.merge_runs(g, time, deme);
+        }
     }
 
     /// Draws the parent of the individual at (deme, time) and queues its lineage; returns the
@@ -230,11 +319,55 @@ pub(crate) fn seat_lineages<R: Rng + ?Sized>(
     order.sort_unstable_by_key(|&i| (seat[i as usize], i));
 }
 
+/// Seats m lineages among `size` individuals conditioned on at least one merge (see
+/// [`Simulator::lockstep`]); `q` = P(at least one merge) = 1 - prod_{i<m} (1 - i/size).
+fn seat_conditioned<R: Rng + ?Sized>(
+    m: usize,
+    size: u64,
+    q: f64,
+    seat: &mut Vec<u32>,
+    order: &mut Vec<u32>,
+    rng: &mut R,
+) {
+    seat.clear();
+    let nf = size as f64;
+    // The first lineage that joins an occupied seat: j with P ∝ prod_{i<j}(1 - i/N) (j/N).
+    let u: f64 = rng.random::<f64>() * q;
+    let (mut acc, mut all_distinct, mut first) = (0.0, 1.0, m - 1);
+    for j in 1..m {
+        let p = all_distinct * (j as f64 / nf);
+        acc += p;
+        if u < acc {
+            first = j;
+            break;
+        }
+        all_distinct *= 1.0 - j as f64 / nf;
+    }
+    seat.extend(0..first as u32);
+    seat.push(rng.random_range(0..first as u32));
+    let mut occupied = first as u64;
+    for _ in first + 1..m {
+        let u = rng.random_range(0..size);
+        let s = if u < occupied {
+            u
+        } else {
+            occupied += 1;
+            occupied - 1
+        };
+        seat.push(s as u32);
+    }
+    order.clear();
+    order.extend(0..m as u32);
+    order.sort_unstable_by_key(|&i| (seat[i as usize], i));
+}
+
 /// The parts of a scenario the hot loop reads, with fast paths chosen once.
 struct Model<'a> {
     scenario: &'a Scenario,
     dormancy: Vec<&'a Dormancy>,
     constant_size: Vec<Option<u64>>,
+    /// Demes where lineages move in lockstep (no dormancy, constant size, no migration).
+    lockstep: Vec<bool>,
     n_demes: u64,
     horizon: u64,
     migrates: bool,
@@ -247,6 +380,12 @@ impl<'a> Model<'a> {
             scenario,
             dormancy: demes.iter().map(|d| d.dormancy()).collect(),
             constant_size: demes.iter().map(|d| d.size().as_constant()).collect(),
+            lockstep: demes
+                .iter()
+                .map(|d| {
+                    d.dormancy().is_none() && d.size().as_constant().is_some() && !scenario.migration().is_active()
+                })
+                .collect(),
             n_demes: demes.len() as u64,
             horizon: scenario.horizon(),
             migrates: scenario.migration().is_active(),

@@ -30,7 +30,8 @@ fn without_recombination_the_one_tree_is_the_engines_genealogy() {
     // Same model, same stream: with r = 0 the ARG engine draws exactly the engine's random
     // numbers in the engine's order, so the single local tree must be the engine's genealogy,
     // replicate by replicate (dormancy, migration, seed-bank samples, sampled ancestors,
-    // horizon forests, founders).
+    // horizon forests, founders). The engine runs step by step: its skip-ahead without
+    // dormancy draws other numbers for the same law.
     let cases = [
         crate::scenario::DEMO_YAML,
         "demes: [{name: a, size: 30, dormancy: {law: geometric, mean: 2.5}}]\nsamples: [{deme: a, count: 6}, {deme: a, count: 2, generations_ago: 7}]\n",
@@ -41,7 +42,7 @@ fn without_recombination_the_one_tree_is_the_engines_genealogy() {
     ];
     let config = ArgConfig::new(25, 0.0).unwrap();
     let key = master_key(11);
-    let (mut engine, mut arg) = (Simulator::new(), ArgSimulator::new());
+    let (mut engine, mut arg) = (Simulator::step_by_step(), ArgSimulator::new());
     for yaml in cases {
         let s = scenario(yaml);
         for rep in 0..40 {

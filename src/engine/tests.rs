@@ -120,3 +120,48 @@ fn infinite_mean_refuses_seedbank_samples() {
     .to_string();
     assert!(e.contains("samples[0].from") && e.contains("infinite mean"), "{e}");
 }
+
+#[test]
+fn skip_ahead_without_dormancy_has_the_law_of_step_by_step() {
+    // The skip-ahead draws one geometric waiting time per merge event instead of every
+    // parent of every generation (the discrete Wright–Fisher chain, theory reference §1).
+    // Compare with the generation-by-generation engine in distribution: N = 6 and n = 5
+    // make multiple mergers common; horizon 12 makes forests common. Two-sample chi-square
+    // (Press et al., Numerical Recipes §14.3) on T_MRCA (forest = 13) and total length,
+    // each at level 0.001.
+    use statrs::distribution::{ChiSquared, ContinuousCDF};
+    let s = scenario("horizon: 12\ndemes: [{name: a, size: 6}]\nsamples: [{deme: a, count: 5}]\n");
+    let key = master_key(21);
+    let reps = 6000u64;
+    let run = |mut sim: Simulator, offset: u64| -> Vec<(u64, u64, u64)> {
+        (0..reps)
+            .map(|r| {
+                let g = sim.simulate(&s, &mut replicate_rng(&key, r + offset));
+                (g.tmrca().unwrap_or(13), g.total_length(), g.steps())
+            })
+            .collect()
+    };
+    let fast = run(Simulator::new(), 0);
+    let slow = run(Simulator::step_by_step(), reps);
+    let p_value = |a: Vec<u64>, b: Vec<u64>| {
+        let max = *a.iter().chain(&b).max().unwrap() as usize;
+        let (mut ca, mut cb) = (vec![0.0; max + 1], vec![0.0; max + 1]);
+        a.iter().for_each(|&x| ca[x as usize] += 1.0);
+        b.iter().for_each(|&x| cb[x as usize] += 1.0);
+        let (mut stat, mut df) = (0.0, -1.0);
+        for (x, y) in ca.iter().zip(&cb) {
+            if x + y > 0.0 {
+                stat += (x - y) * (x - y) / (x + y);
+                df += 1.0;
+            }
+        }
+        1.0 - ChiSquared::new(df).unwrap().cdf(stat)
+    };
+    let p_t = p_value(fast.iter().map(|x| x.0).collect(), slow.iter().map(|x| x.0).collect());
+    let p_l = p_value(fast.iter().map(|x| x.1 / 4).collect(), slow.iter().map(|x| x.1 / 4).collect());
+    assert!(p_t > 0.001 && p_l > 0.001, "p(T_MRCA) = {p_t}, p(length) = {p_l}");
+    // Steps are accounted, not drawn, by the skip-ahead: the same mean.
+    let mean = |v: &[(u64, u64, u64)]| v.iter().map(|x| x.2 as f64).sum::<f64>() / v.len() as f64;
+    let (a, b) = (mean(&fast), mean(&slow));
+    assert!((a - b).abs() < 0.05 * b, "steps {a} vs {b}");
+}
