@@ -445,8 +445,18 @@ pub struct ApproxModel<'a> {
     mig: Vec<MigEpoch>,
     migrates: bool,
     horizon: f64,
-    /// (E[R], scale, N) when the plain Kingman fast path applies.
-    plain: Option<(f64, f64, f64)>,
+    /// The plain Kingman fast path, when it applies.
+    plain: Option<Plain>,
+}
+
+/// Constants of the plain Kingman fast path (one constant-size Kingman deme, every sample
+/// from the population at one time).
+#[derive(Debug, Clone)]
+struct Plain {
+    /// 1 / E\[R] (links per generation).
+    link_rate: f64,
+    /// wait\[k] = scale N / C(k, 2): the mean waiting time with k lineages (k = 2..=n).
+    wait: Vec<f64>,
 }
 
 /// One live lineage.
@@ -541,7 +551,9 @@ impl<'a> ApproxModel<'a> {
             ([DemeModel::Kingman { mean, scale, .. }], [Some(size)])
                 if samples.iter().all(|x| x.kind == SampleKind::Population && x.time == samples[0].time) =>
             {
-                Some((*mean, *scale, *size))
+                let sn = scale * size;
+                let wait = (0..=samples.len()).map(|k| sn / (k * k.saturating_sub(1) / 2).max(1) as f64).collect();
+                Some(Plain { link_rate: 1.0 / mean, wait })
             }
             _ => None,
         };
@@ -661,8 +673,8 @@ impl<'a> ApproxModel<'a> {
 
     /// Simulates one genealogy, drawing only from `rng`.
     pub fn simulate<R: Rng + ?Sized>(&self, rng: &mut R) -> Genealogy {
-        if let Some((mean, scale, size)) = self.plain {
-            return self.simulate_plain(mean, scale, size, rng);
+        if let Some(plain) = &self.plain {
+            return self.simulate_plain(plain, rng);
         }
         let n_demes = self.demes.len();
         let mut g = Genealogy::with_samples(self.scenario.samples().len());
@@ -748,41 +760,44 @@ impl<'a> ApproxModel<'a> {
 
     /// Fast path for one deme of constant size under Kingman with every sample taken from the
     /// population at one time: the plain Kingman loop (the general loop gives the same law).
-    fn simulate_plain<R: Rng + ?Sized>(&self, mean: f64, scale: f64, size: f64, rng: &mut R) -> Genealogy {
+    fn simulate_plain<R: Rng + ?Sized>(&self, plain: &Plain, rng: &mut R) -> Genealogy {
         let samples = self.scenario.samples();
-        let mut g = Genealogy::with_samples(samples.len());
+        let n = samples.len();
+        let mut g = Genealogy::with_capacity(n, (2 * n).saturating_sub(1), (2 * n).saturating_sub(2));
         let t0 = samples[0].time;
-        let mut live: Vec<(u32, u64)> = Vec::with_capacity(samples.len());
-        for i in 0..samples.len() {
-            live.push((g.add_node(Node { time: t0, deme: 0, sample: Some(i as u32) }), t0));
-        }
+        // Live lineages as (node, node time); the leaves are nodes 0..n.
+        g.add_leaves(t0, 0, n as u32);
+        let mut live: Vec<(u32, u64)> = (0..n as u32).map(|i| (i, t0)).collect();
+        // round(len / E[R]) clamped to [1, len]; without dormancy (E[R] = 1) that is len.
+        let unit = plain.link_rate == 1.0;
+        let jumps = |len: u64| if unit { len } else { ((len as f64 * plain.link_rate + 0.5) as u64).clamp(1, len) };
         let mut t = t0 as f64;
         let mut steps = 0;
-        let sn = scale * size;
         while live.len() > 1 {
             let k = live.len();
-            t += exp1(rng) * sn / (k * (k - 1) / 2) as f64;
+            t += exp1(rng) * plain.wait[k];
             if t > self.horizon {
                 break;
             }
             steps += 1;
-            let i = rng.random_range(0..k);
+            // u32 ranges: the same draws as usize ranges (rand samples those below 2^32 as u32).
+            let i = rng.random_range(0..k as u32) as usize;
             let (na, ta) = live.swap_remove(i);
-            let j = rng.random_range(0..k - 1);
+            let j = rng.random_range(0..(k - 1) as u32) as usize;
             let (nb, tb) = live[j];
             // t >= 0, so adding 1/2 and truncating rounds to the nearest generation.
             let time = ((t + 0.5) as u64).max(ta.max(tb) + 1);
-            let node = g.add_node(Node { time, deme: 0, sample: None });
-            for (c, tc) in [(na, ta), (nb, tb)] {
-                let len = time - tc;
-                g.add_edge(node, c, ((len as f64 / mean + 0.5) as u64).clamp(1, len));
-            }
+            let (la, lb) = (time - ta, time - tb);
+            let node = g.add_merge(Node { time, deme: 0, sample: None }, [(na, la, jumps(la)), (nb, lb, jumps(lb))]);
             live[j] = (node, time);
+        }
+        // Roots in node order; a tree has one root, so only a forest (horizon reached) sorts.
+        if live.len() > 1 {
+            live.sort_unstable();
         }
         for &(node, _) in &live {
             g.add_root(node);
         }
-        g.sort_roots();
         g.set_steps(steps);
         g
     }

@@ -51,6 +51,34 @@ impl Genealogy {
         }
     }
 
+    /// An empty genealogy with room for exactly `nodes` nodes and `edges` edges.
+    pub(crate) fn with_capacity(n_samples: usize, nodes: usize, edges: usize) -> Self {
+        Genealogy { graph: DiGraph::with_capacity(nodes, edges), roots: Vec::new(), steps: 0, n_samples }
+    }
+
+    /// Adds `n` sampled individuals at `time` in deme `deme`, as nodes (and sample indices)
+    /// `0..n`, to an empty genealogy.
+    #[inline]
+    pub(crate) fn add_leaves(&mut self, time: u64, deme: usize, n: u32) {
+        debug_assert_eq!(self.graph.node_count(), 0);
+        for i in 0..n {
+            self.graph.add_node(Node { time, deme, sample: Some(i) });
+        }
+    }
+
+    /// Adds a merge node and its edges to `children`, each given as (node, length, jumps), the
+    /// lengths already computed by the caller (parent time - child time).
+    #[inline]
+    pub(crate) fn add_merge(&mut self, node: Node, children: [(u32, u64, u64); 2]) -> u32 {
+        let p = self.graph.add_node(node);
+        for (c, length, jumps) in children {
+            debug_assert_eq!(length, node.time - self.graph[NodeIndex::new(c as usize)].time);
+            debug_assert!(jumps >= 1 && jumps <= length, "an edge of {length} generations cannot hold {jumps} jumps");
+            self.graph.add_edge(p, NodeIndex::new(c as usize), Edge { length, jumps });
+        }
+        p.index() as u32
+    }
+
     pub(crate) fn add_node(&mut self, node: Node) -> u32 {
         self.graph.add_node(node).index() as u32
     }
