@@ -289,15 +289,8 @@ pub const COMPARE_FILES: [&str; 5] =
 
 /// Writes the outputs into `dir` (created if needed); returns the files written.
 pub fn write(run: &CompareRun, dir: &Path) -> Result<Vec<std::path::PathBuf>, Error> {
-    std::fs::create_dir_all(dir).map_err(|source| Error::Write { path: dir.to_path_buf(), source })?;
+    let mut out = super::OutDir::new(dir)?;
     let a = &run.analysis;
-    let mut written = Vec::new();
-    let mut put = |name: &str, bytes: &[u8]| -> Result<(), Error> {
-        let p = dir.join(name);
-        super::write_file(&p, bytes)?;
-        written.push(p);
-        Ok(())
-    };
     let mut t = String::from("hypothesis\tfile\taccepted\tprobability\tmc_error");
     if a.logistic.is_some() {
         t.push_str("\tlogistic_probability\tlogistic_se");
@@ -311,7 +304,7 @@ pub fn write(run: &CompareRun, dir: &Path) -> Result<Vec<std::path::PathBuf>, Er
         }
         t.push('\n');
     }
-    put(COMPARE_FILES[0], t.as_bytes())?;
+    out.put(COMPARE_FILES[0], t.as_bytes())?;
     let mut p = String::from("hypothesis\tparameter\tmean\tmedian\tlow_95\thigh_95\tprior_low\tprior_high\n");
     let mut samples = String::from("hypothesis\tsimulation\tdistance\tweight\tparameter\tvalue\tadjusted\n");
     for (h, e) in run.hypotheses.iter().zip(&a.estimation) {
@@ -344,8 +337,8 @@ pub fn write(run: &CompareRun, dir: &Path) -> Result<Vec<std::path::PathBuf>, Er
             }
         }
     }
-    put(COMPARE_FILES[1], p.as_bytes())?;
-    put(COMPARE_FILES[2], samples.as_bytes())?;
+    out.put(COMPARE_FILES[1], p.as_bytes())?;
+    out.put(COMPARE_FILES[2], samples.as_bytes())?;
     let json = serde_json::json!({
         "seedline": env!("CARGO_PKG_VERSION"),
         "generator": crate::batch::GENERATOR,
@@ -377,17 +370,17 @@ pub fn write(run: &CompareRun, dir: &Path) -> Result<Vec<std::path::PathBuf>, Er
         "notes": run.notes,
     });
     let text = serde_json::to_string_pretty(&json).map_err(|e| Error::Options(e.to_string()))?;
-    put(COMPARE_FILES[3], text.as_bytes())?;
+    out.put(COMPARE_FILES[3], text.as_bytes())?;
     let names: Vec<String> = run.hypotheses.iter().map(|h| h.name.clone()).collect();
-    put(COMPARE_FILES[4], super::plot::model_bars(&names, &a.shares).as_bytes())?;
+    out.put(COMPARE_FILES[4], super::plot::model_bars(&names, &a.shares).as_bytes())?;
     for (h, e) in run.hypotheses.iter().zip(&a.estimation) {
         let Some(e) = e else { continue };
         for (q, prior) in e.parameters.iter().zip(&h.priors) {
             let name = format!("posterior_{}_{}.svg", h.name, file_part(&q.parameter));
-            put(&name, super::plot::posterior_density(&h.name, q, prior).as_bytes())?;
+            out.put(&name, super::plot::posterior_density(&h.name, q, prior).as_bytes())?;
         }
     }
-    Ok(written)
+    Ok(out.written())
 }
 
 /// A short text report for the terminal.

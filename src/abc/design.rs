@@ -447,19 +447,12 @@ pub const DESIGN_FILES: [&str; 2] = ["power.tsv", "design.json"];
 
 /// Writes `power.tsv`, `design.json` and the figures into `dir`; returns the files written.
 pub fn write(run: &DesignRun, dir: &Path) -> Result<Vec<std::path::PathBuf>, Error> {
-    std::fs::create_dir_all(dir).map_err(|source| Error::Write { path: dir.to_path_buf(), source })?;
-    let mut written = Vec::new();
-    let mut put = |name: &str, bytes: &[u8]| -> Result<(), Error> {
-        let p = dir.join(name);
-        super::write_file(&p, bytes)?;
-        written.push(p);
-        Ok(())
-    };
+    let mut out = super::OutDir::new(dir)?;
     let mut t = String::from("design\tstatistic\tpower\tlow_95\thigh_95\tcost\n");
     for r in &run.rows {
         let _ = writeln!(t, "{}\t{}\t{}\t{}\t{}\t{}", r.design, r.statistic, r.power, r.low_95, r.high_95, r.cost);
     }
-    put(DESIGN_FILES[0], t.as_bytes())?;
+    out.put(DESIGN_FILES[0], t.as_bytes())?;
     let cheapest: Vec<serde_json::Value> = run
         .cheapest()
         .into_iter()
@@ -484,17 +477,17 @@ pub fn write(run: &DesignRun, dir: &Path) -> Result<Vec<std::path::PathBuf>, Err
         "notes": run.notes,
     });
     let text = serde_json::to_string_pretty(&json).map_err(|e| Error::Options(e.to_string()))?;
-    put(DESIGN_FILES[1], text.as_bytes())?;
+    out.put(DESIGN_FILES[1], text.as_bytes())?;
     let mut names = run.statistics.clone();
     names.push(SFS_CHI2.to_string());
     for s in &names {
         let rows: Vec<&PowerRow> = run.rows.iter().filter(|r| &r.statistic == s).collect();
-        put(
+        out.put(
             &format!("power_{}.svg", super::compare::file_part(s)),
             super::plot::power_curve(s, &rows, run.options.target).as_bytes(),
         )?;
     }
-    Ok(written)
+    Ok(out.written())
 }
 
 /// A short text report for the terminal.

@@ -452,6 +452,33 @@ pub(crate) fn write_file(path: &Path, bytes: &[u8]) -> Result<(), Error> {
     crate::report::write_atomic(path, bytes).map_err(|source| Error::Write { path: path.to_path_buf(), source })
 }
 
+/// An output directory that writes files atomically and remembers what it wrote.
+pub(crate) struct OutDir<'a> {
+    dir: &'a Path,
+    written: Vec<std::path::PathBuf>,
+}
+
+impl<'a> OutDir<'a> {
+    /// Creates the directory if needed.
+    pub(crate) fn new(dir: &'a Path) -> Result<Self, Error> {
+        std::fs::create_dir_all(dir).map_err(|source| Error::Write { path: dir.to_path_buf(), source })?;
+        Ok(OutDir { dir, written: Vec::new() })
+    }
+
+    /// Writes `dir/name`.
+    pub(crate) fn put(&mut self, name: &str, bytes: &[u8]) -> Result<(), Error> {
+        let p = self.dir.join(name);
+        write_file(&p, bytes)?;
+        self.written.push(p);
+        Ok(())
+    }
+
+    /// The files written, in order.
+    pub(crate) fn written(self) -> Vec<std::path::PathBuf> {
+        self.written
+    }
+}
+
 #[cfg(test)]
 mod tests {
     use super::*;
