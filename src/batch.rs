@@ -260,6 +260,11 @@ pub fn simulate_replicate(
     let one = |sim: &mut Simulator, locus: u64| -> Result<LocusOutcome, crate::mutation::Error> {
         let mut rng = locus_rng(key, replicate, locus);
         let mut newick = String::new();
+        let tag = if scenario.loci() > 1 {
+            format!("replicate {replicate} locus {}", locus + 1)
+        } else {
+            format!("replicate {replicate}")
+        };
         let (mut out, mutations) = match scenario.recombination() {
             Some(config) => {
                 let arg = ArgSimulator::new().simulate(scenario, config, &mut rng);
@@ -268,7 +273,7 @@ pub fn simulate_replicate(
                     None => None,
                 };
                 if keep.trees {
-                    arg.write_newick(labels, replicate, &mut newick);
+                    arg.write_newick_tagged(labels, &tag, &mut newick);
                 }
                 (LocusOutcome::of_arg(&arg, None), mutations)
             }
@@ -282,7 +287,7 @@ pub fn simulate_replicate(
                     None => None,
                 };
                 if keep.trees {
-                    g.write_newick(labels, replicate, &mut newick);
+                    g.write_newick_tagged(labels, &tag, &mut newick);
                 }
                 (LocusOutcome::of_genealogy(&g, None), mutations)
             }

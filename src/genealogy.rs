@@ -178,12 +178,18 @@ impl Genealogy {
     /// replicate and the tree. Branch lengths are in generations; sampled individuals carry
     /// their label (also when they are ancestors of other samples).
     pub fn write_newick(&self, labels: &[String], replicate: u64, out: &mut String) {
+        self.write_newick_tagged(labels, &format!("replicate {replicate}"), out);
+    }
+
+    /// As [`Genealogy::write_newick`], with `tag` as the comment, e.g. `replicate 3 locus 2`:
+    /// `[tag]` before a tree, `[tag tree i of k]` before each tree of a forest.
+    pub fn write_newick_tagged(&self, labels: &[String], tag: &str, out: &mut String) {
         let k = self.roots.len();
         for (i, &root) in self.roots.iter().enumerate() {
             if k == 1 {
-                let _ = write!(out, "[replicate {replicate}]");
+                let _ = write!(out, "[{tag}]");
             } else {
-                let _ = write!(out, "[replicate {replicate} tree {} of {k}]", i + 1);
+                let _ = write!(out, "[{tag} tree {} of {k}]", i + 1);
             }
             self.newick_node(root, labels, out);
             out.push_str(";\n");

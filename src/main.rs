@@ -10,7 +10,7 @@ use std::process::ExitCode;
 const EXAMPLES: &str = "Examples:
   seedline simulate                              run the embedded demo scenario
   seedline simulate scenarios/desert-annual.yaml --replicates 500 --out runs/desert
-  seedline simulate scenarios/meadow.yaml --seed 11 --threads 2
+  seedline simulate scenarios/meadow-two-slopes.yaml --seed 11 --threads 2
   seedline simulate scenarios/lake-resting-eggs.yaml --vcf --diploid
   seedline predict scenarios/soil-microbe-rare-long.yaml --json
   seedline validate scenarios/lake-resting-eggs.yaml
@@ -33,15 +33,8 @@ enum Command {
     Simulate {
         /// Scenario file (YAML); the embedded demo when omitted
         scenario: Option<PathBuf>,
-        /// Number of replicates (overrides the file)
-        #[arg(long)]
-        replicates: Option<u64>,
-        /// Master seed (overrides the file)
-        #[arg(long)]
-        seed: Option<u64>,
-        /// Worker threads (0 = one per core)
-        #[arg(long, default_value_t = 0)]
-        threads: usize,
+        #[command(flatten)]
+        run: RunArgs,
         /// Output directory
         #[arg(long, default_value = "seedline-out")]
         out: PathBuf,
@@ -90,15 +83,8 @@ enum Command {
     Families {
         /// Scenario file (YAML) whose sample is a block
         scenario: PathBuf,
-        /// Number of replicates (overrides the file)
-        #[arg(long)]
-        replicates: Option<u64>,
-        /// Master seed (overrides the file)
-        #[arg(long)]
-        seed: Option<u64>,
-        /// Worker threads (0 = one per core)
-        #[arg(long, default_value_t = 0)]
-        threads: usize,
+        #[command(flatten)]
+        run: RunArgs,
         /// Output directory
         #[arg(long, default_value = "seedline-families")]
         out: PathBuf,
@@ -237,6 +223,33 @@ const NULL_EXAMPLES: &str = "Examples:
 
 Rerunning the same command in the same --out resumes after the last complete chunk.";
 
+/// Flags shared by the commands that run replicates of a scenario.
+#[derive(clap::Args)]
+struct RunArgs {
+    /// Number of replicates (overrides the file)
+    #[arg(long)]
+    replicates: Option<u64>,
+    /// Master seed (overrides the file)
+    #[arg(long)]
+    seed: Option<u64>,
+    /// Worker threads (0 = one per core)
+    #[arg(long, default_value_t = 0)]
+    threads: usize,
+}
+
+impl RunArgs {
+    /// Reads the scenario (or the demo), merges these overrides into it and validates it.
+    fn scenario(&self, path: Option<&Path>) -> Result<(Scenario, String)> {
+        let (raw, origin) = load_raw(path)?;
+        let raw = RawScenario { replicates: self.replicates.or(raw.replicates), seed: self.seed.or(raw.seed), ..raw };
+        Ok((Scenario::from_raw(raw, &origin)?, origin))
+    }
+
+    fn batch(&self) -> BatchConfig {
+        BatchConfig { threads: self.threads, ..BatchConfig::default() }
+    }
+}
+
 /// Marks an error as the user's input being wrong (exit code 2).
 #[derive(Debug, thiserror::Error)]
 #[error("{0}")]
@@ -277,15 +290,13 @@ fn is_broken_pipe(e: &anyhow::Error) -> bool {
 
 fn run(cli: Cli) -> Result<()> {
     match cli.command {
-        Command::Simulate { scenario, replicates, seed, threads, out, vcf, diploid, loci_table, engine } => {
-            let (raw, origin) = load_raw(scenario.as_deref())?;
-            let raw = RawScenario { replicates: replicates.or(raw.replicates), seed: seed.or(raw.seed), ..raw };
-            let scenario = Scenario::from_raw(raw, &origin)?;
+        Command::Simulate { scenario, run, out, vcf, diploid, loci_table, engine } => {
+            let (scenario, origin) = run.scenario(scenario.as_deref())?;
             let bar = progress_bar(scenario.replicates());
             let summary = seedline::report::simulate_to_dir(
                 &scenario,
                 &origin,
-                BatchConfig { threads, ..BatchConfig::default() },
+                run.batch(),
                 seedline::report::SimulateOptions { vcf, diploid, loci_table, engine },
                 &out,
                 &|| bar.inc(1),
@@ -328,14 +339,12 @@ fn run(cli: Cli) -> Result<()> {
             )?;
             Ok(())
         }
-        Command::Families { scenario, replicates, seed, threads, out, colours } => {
+        Command::Families { scenario, run, out, colours } => {
             use seedline::families::{self, Colours, Options};
-            let (raw, origin) = load_raw(Some(&scenario))?;
-            let raw = RawScenario { replicates: replicates.or(raw.replicates), seed: seed.or(raw.seed), ..raw };
-            let scenario = Scenario::from_raw(raw, &origin)?;
+            let (scenario, origin) = run.scenario(Some(&scenario))?;
             let colours = if colours == "normal" { Colours::Normal } else { Colours::Pm1 };
             let bar = progress_bar(scenario.replicates());
-            let config = BatchConfig { threads, ..BatchConfig::default() };
+            let config = run.batch();
             let report = families::run(&scenario, &origin, config, &Options { colours, ..Options::default() }, &|| {
                 bar.inc(1)
             })

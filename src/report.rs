@@ -155,47 +155,8 @@ mod tests {
     }
 }
 
-/// One row of `replicates.tsv`.
-#[derive(Debug, Clone, PartialEq)]
-pub struct ReplicateRow {
-    /// Replicate index.
-    pub replicate: u64,
-    /// Time of the MRCA, when the replicate ended as a single tree.
-    pub tmrca: Option<u64>,
-    /// Number of roots (1 when an MRCA was found).
-    pub roots: usize,
-    /// Sum of branch lengths in generations.
-    pub total_length: u64,
-    /// Lineage steps taken.
-    pub jumps: u64,
-}
-
-impl ReplicateRow {
-    /// The row of a simulated genealogy.
-    pub fn of(replicate: u64, g: &crate::genealogy::Genealogy) -> Self {
-        ReplicateRow {
-            replicate,
-            tmrca: g.tmrca(),
-            roots: g.roots().len(),
-            total_length: g.total_length(),
-            jumps: g.steps(),
-        }
-    }
-
-    /// Column names of `replicates.tsv`.
-    pub const HEADER: [&'static str; 5] = ["replicate", "tmrca", "roots", "total_length", "jumps"];
-
-    /// Tab-separated fields (empty `tmrca` for a forest).
-    pub fn fields(&self) -> [String; 5] {
-        [
-            self.replicate.to_string(),
-            self.tmrca.map(|t| t.to_string()).unwrap_or_default(),
-            self.roots.to_string(),
-            self.total_length.to_string(),
-            self.jumps.to_string(),
-        ]
-    }
-}
+/// The columns of `replicates.tsv` present for every scenario (see [`replicate_columns`]).
+pub const BASE_COLUMNS: [&str; 5] = ["replicate", "tmrca", "roots", "total_length", "jumps"];
 
 /// Versions and generator recorded in every summary, so that a result can be reproduced.
 #[derive(Debug, Clone, Serialize)]
@@ -340,7 +301,7 @@ pub struct SimulateOptions {
 /// `tmrca`, `total_length` of a locus are means over its local trees weighted by their
 /// number of sites ([`crate::batch::LocusOutcome`]).
 pub fn replicate_columns(scenario: &crate::scenario::Scenario) -> Vec<String> {
-    let mut cols: Vec<String> = ReplicateRow::HEADER.iter().map(|s| s.to_string()).collect();
+    let mut cols: Vec<String> = BASE_COLUMNS.iter().map(|s| s.to_string()).collect();
     if scenario.mutation().is_some() {
         let names: Vec<&str> = scenario.demes().iter().map(|d| d.name()).collect();
         cols.extend(crate::stats::stat_columns(&names));
@@ -485,14 +446,7 @@ pub fn simulate_to_dir(
             writeln!(table.out, "{}", fields.join("\t"))?;
             for (j, l) in loci_out.iter().enumerate() {
                 if let Some(t) = &l.newick {
-                    if loci > 1 {
-                        trees.out.write_all(
-                            t.replace(&format!("[replicate {rep}"), &format!("[replicate {rep} locus {}", j + 1))
-                                .as_bytes(),
-                        )?;
-                    } else {
-                        trees.out.write_all(t.as_bytes())?;
-                    }
+                    trees.out.write_all(t.as_bytes())?;
                 }
                 if let Some(f) = loci_file.as_mut() {
                     let st = l.stats.as_ref();
@@ -551,7 +505,7 @@ pub fn simulate_to_dir(
         replicates: scenario.replicates(),
         forests,
         columns: acc.summaries(),
-        comparison: compare(&acc.summaries(), &sfs_means, &prediction),
+        comparison: compare(&acc.summaries(), &sfs_means, &prediction, n == 2 && loci == 1),
         prediction: prediction.to_json(),
         notes: prediction.notes.clone(),
         engine,
@@ -637,6 +591,7 @@ fn compare(
     columns: &[(String, ColumnSummary)],
     sfs: &[ColumnSummary],
     pr: &crate::theory::predict::Prediction,
+    one_pair: bool,
 ) -> Vec<Comparison> {
     use crate::theory::predict::Predicted;
     let get = |name: &str| columns.iter().find(|(c, _)| c == name).map(|(_, s)| s.clone());
@@ -664,8 +619,8 @@ fn compare(
     add("pi".into(), get("pi"), pr.pi_mean.clone());
     add("tajima_d".into(), get("tajima_d"), pr.tajima_d_mean.clone());
     add("haplotypes".into(), get("haplotypes"), pr.haplotypes_mean.clone());
-    if let (Some(p), Some(roots)) = (&pr.pair_meet_probability, get("roots")) {
-        // A sample of two: one root means the lineages met, so P(met) = 2 - E[roots].
+    if let (Some(p), Some(roots), true) = (&pr.pair_meet_probability, get("roots"), one_pair) {
+        // A sample of two at one locus: one root means the lineages met, so P(met) = 2 - E[roots].
         let met = ColumnSummary { mean: roots.mean.map(|m| 2.0 - m), quantiles: None, ..roots };
         let source = format!("{} (the horizon can only lower the simulated value)", p.source);
         add("pair met (2 - roots)".into(), Some(met), Some(Predicted { source, ..p.clone() }));

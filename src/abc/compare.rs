@@ -340,8 +340,7 @@ pub fn write(run: &CompareRun, dir: &Path) -> Result<Vec<std::path::PathBuf>, Er
     out.put(COMPARE_FILES[1], p.as_bytes())?;
     out.put(COMPARE_FILES[2], samples.as_bytes())?;
     let json = serde_json::json!({
-        "seedline": env!("CARGO_PKG_VERSION"),
-        "generator": crate::batch::GENERATOR,
+        "provenance": crate::report::Provenance::current(),
         "observed": run.observed_file,
         "statistics": run.statistics,
         "observed_values": run.observed,

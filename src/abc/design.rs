@@ -459,8 +459,7 @@ pub fn write(run: &DesignRun, dir: &Path) -> Result<Vec<std::path::PathBuf>, Err
         .map(|(s, r)| serde_json::json!({"statistic": s, "design": r.map(|r| r.design.clone()), "cost": r.map(|r| r.cost), "power": r.map(|r| r.power)}))
         .collect();
     let json = serde_json::json!({
-        "seedline": env!("CARGO_PKG_VERSION"),
-        "generator": crate::batch::GENERATOR,
+        "provenance": crate::report::Provenance::current(),
         "null": run.null_file,
         "alternative": run.alternative_file,
         "designs": run.designs_file,

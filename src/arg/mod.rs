@@ -205,18 +205,14 @@ impl Arg {
     /// `[replicate 3 sites 0-41](...);`, and `[replicate 3 sites 0-41 tree 1 of 2]...` for a
     /// forest. Site ranges are inclusive.
     pub fn write_newick(&self, labels: &[String], replicate: u64, out: &mut String) {
-        let head = format!("[replicate {replicate}");
-        let mut tmp = String::new();
+        self.write_newick_tagged(labels, &format!("replicate {replicate}"), out);
+    }
+
+    /// As [`Arg::write_newick`], with `tag` (e.g. `replicate 3 locus 2`) before the sites.
+    pub fn write_newick_tagged(&self, labels: &[String], tag: &str, out: &mut String) {
         for t in &self.trees {
-            tmp.clear();
-            t.genealogy().write_newick(labels, replicate, &mut tmp);
-            for line in tmp.lines() {
-                let rest = line.strip_prefix(&head).expect("Genealogy::write_newick starts with the replicate");
-                out.push_str(&head);
-                out.push_str(&format!(" sites {}-{}", t.left(), t.right() - 1));
-                out.push_str(rest);
-                out.push('\n');
-            }
+            let tree_tag = format!("{tag} sites {}-{}", t.left(), t.right() - 1);
+            t.genealogy().write_newick_tagged(labels, &tree_tag, out);
         }
     }
 }

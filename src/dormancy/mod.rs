@@ -299,3 +299,52 @@ pub(crate) mod test_util {
         }
     }
 }
+
+#[cfg(test)]
+mod seed_age_tests {
+    use super::*;
+    use rand::SeedableRng;
+
+    /// Chi-square of `n` draws of the seed age against P(A = a) = P(R > a) / E[R].
+    fn check(law: Dormancy, classes: u64) {
+        // Source: renewal theory, the stationary age of the current renewal interval has
+        // P(A = a) = P(R > a) / E[R] for a >= 0 (Feller 1971, vol. II, §XI.4; from memory).
+        let sampler = law.seed_age_sampler(0).unwrap();
+        let mean = law.mean().unwrap();
+        let mut rng = rand::rngs::ChaCha8Rng::seed_from_u64(17);
+        let n = 60_000;
+        let mut counts = vec![0.0; classes as usize + 1];
+        for _ in 0..n {
+            counts[sampler.sample(&mut rng).min(classes) as usize] += 1.0;
+        }
+        let mut stat = 0.0;
+        let mut covered = 0.0;
+        for a in 0..classes {
+            let p = law.tail(a) / mean;
+            covered += p;
+            stat += (counts[a as usize] - p * n as f64).powi(2) / (p * n as f64);
+        }
+        let rest = 1.0 - covered;
+        if rest > 1e-9 {
+            stat += (counts[classes as usize] - rest * n as f64).powi(2) / (rest * n as f64);
+        } else {
+            assert_eq!(counts[classes as usize], 0.0, "{}: an age beyond the support", law.law_name());
+        }
+        // 99.9% quantile of chi-square with at most 12 degrees of freedom is 32.9 (table value).
+        assert!(stat < 32.9, "{}: chi-square {stat}", law.law_name());
+    }
+
+    #[test]
+    fn stationary_seed_age_follows_the_tail_over_the_mean() {
+        check(Dormancy::Uniform(Uniform::new(5).unwrap()), 5);
+        check(Dormancy::Geometric(Geometric::new(4.0).unwrap()), 12);
+        let mix =
+            Mixture::new(vec![(1.0, Dormancy::None), (1.0, Dormancy::Uniform(Uniform::new(3).unwrap()))]).unwrap();
+        check(Dormancy::Mixture(mix), 3);
+        check(Dormancy::Table(Table::new(&[0.2, 0.0, 0.5, 0.3]).unwrap()), 4);
+        assert!(matches!(
+            Dormancy::Pareto(Pareto::new(0.7, None).unwrap()).seed_age_sampler(0),
+            Err(Error::InfiniteMeanSeedBank)
+        ));
+    }
+}
