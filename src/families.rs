@@ -25,9 +25,11 @@
 //!
 //! **Horizon bias.** The engine stops a lineage at the horizon, so a pair whose common
 //! ancestor is older than the horizon is counted as unrelated: simulated relatedness (and
-//! Var(S_m)) can only be lower than the prediction. For N = 1 the relative shortfall at lag l
-//! is about P(D > horizon - t_old | related) ~ 1 - F_BetaPrime((horizon - t_old) / l), reported
-//! per lag (the limit law's tail, an approximation).
+//! Var(S_m)) can only be lower than the prediction. The relative shortfall at lag l is
+//! P(D > horizon - t_old | related), from the finite-horizon law of
+//! [`crate::theory::horizon`]: asymptotically (1 / P(0 ~ l) - 1) Phi(horizon - t_old), so it
+//! grows with the lag only through P(0 ~ l). It is averaged over the pairs examined and
+//! reported per lag (any N).
 //!
 //! **Random streams.** Replicate r simulates its genealogy from its own stream
 //! ([`crate::batch::replicate_rng`]) and then draws the family types from the *same* stream,
@@ -39,6 +41,7 @@ use crate::batch::{self, BatchConfig, master_key, replicate_rng};
 use crate::genealogy::Genealogy;
 use crate::report::{Provenance, fmt_num, quantile_sorted, write_atomic};
 use crate::scenario::{SampleKind, Scenario};
+use crate::theory::horizon::HorizonLaw;
 use crate::theory::relatedness::{Relatedness, beta_prime_cdf, coloured_variance_asymptote};
 use crate::theory::renewal::{Regime, RenewalError, classify};
 use rand::{Rng, RngExt};
@@ -247,6 +250,15 @@ impl Plan {
         (self.len - lag).min(self.max_pairs)
     }
 
+    /// Whether the pair (i, i + lag) is among those examined (one of [`Plan::starts`]).
+    fn examines(&self, lag: usize, i: usize) -> bool {
+        let count = self.len - lag;
+        let take = count.min(self.max_pairs);
+        // The k with floor(k count / take) = i, if any, is ceil(i take / count).
+        let k = (i * take).div_ceil(count);
+        i < count && k < take && k * count / take == i
+    }
+
     /// First members i of the pairs (i, i + lag) examined: all, or `max_pairs` evenly spaced.
     fn starts(&self, lag: usize) -> impl Iterator<Item = usize> + use<> {
         let count = self.len - lag;
@@ -400,7 +412,8 @@ pub struct Prediction {
     pub coloured_asymptote: Vec<Option<f64>>,
     /// H = alpha + 1/2 (forest).
     pub hurst: Option<f64>,
-    /// Approximate relative horizon bias 1 - F_BetaPrime((horizon - last) / l) per lag (N = 1, forest).
+    /// Relative shortfall of relatedness within the horizon per lag, averaged over the pairs
+    /// examined (forest; see [`horizon_shortfall`]).
     pub horizon_bias: Vec<Option<f64>>,
 }
 
@@ -472,8 +485,7 @@ pub fn predict(scenario: &Scenario, block: &Block, plan: &Plan) -> Result<Option
         .iter()
         .map(|&m| if plain { coloured_variance_asymptote(alpha, denom, m as f64).ok() } else { None })
         .collect();
-    let room = scenario.horizon().saturating_sub(block.last()) as f64;
-    let horizon_bias = (1..len).map(|l| if one { limit(room / l as f64).map(|f| 1.0 - f) } else { None }).collect();
+    let horizon_bias = horizon_shortfall(&r, n, scenario.horizon(), block, plan)?.into_iter().map(Some).collect();
     Ok(Some(Prediction {
         regime,
         tail_exponent: class.tail_exponent,
@@ -486,6 +498,38 @@ pub fn predict(scenario: &Scenario, block: &Block, plan: &Plan) -> Result<Option
         hurst: Some(alpha + 0.5),
         horizon_bias,
     }))
+}
+
+/// Mean relative shortfall of P(i ~ i + l) within the horizon against P(i ~ i + l), over the
+/// pairs examined at each lag l = 1..len-1 (index l - 1).
+///
+/// A pair whose older individual lives at generation t is seen related only when its common
+/// ancestor is at most K = horizon - t generations above it: the shortfall is
+/// 1 - P(0 ~ l, D <= K) / P(0 ~ l), from the finite-horizon law of
+/// [`crate::theory::horizon::HorizonLaw`] (exact sum for small K, singular expansion beyond),
+/// for a deme of any constant size.
+fn horizon_shortfall(
+    r: &Relatedness,
+    deme_size: u64,
+    horizon: u64,
+    block: &Block,
+    plan: &Plan,
+) -> Result<Vec<f64>, FamiliesError> {
+    let len = block.len();
+    let law = HorizonLaw::new(r, deme_size, len - 1)?;
+    let mut sum = vec![0.0; len - 1];
+    let mut count = vec![0usize; len - 1];
+    for older in 1..len {
+        let room = horizon.saturating_sub(block.first() + older as u64);
+        let short = law.shortfall(room, older);
+        for lag in 1..=older {
+            if plan.examines(lag, older - lag) {
+                sum[lag - 1] += short[lag - 1];
+                count[lag - 1] += 1;
+            }
+        }
+    }
+    Ok(sum.iter().zip(&count).map(|(s, &c)| s / c.max(1) as f64).collect())
 }
 
 /// Least-squares slope of ln v against ln m (the growth exponent of v).
@@ -564,7 +608,8 @@ pub struct RelatednessRow {
     pub se: Option<f64>,
     /// Renewal prediction P(0 ~ l).
     pub predicted: Option<f64>,
-    /// Approximate relative downward bias from the horizon (see the module docs).
+    /// Relative downward bias from the horizon: 1 - P(related within the horizon) / P(0 ~ l),
+    /// averaged over the pairs examined (see the module docs).
     pub horizon_bias: Option<f64>,
 }
 
@@ -869,8 +914,8 @@ fn notes(plan: &Plan, options: &Options, theory: bool) -> Vec<String> {
             plan.max_pairs, plan.max_pairs
         ),
         "families = trees of the simulated forest: a common ancestor older than the horizon is not seen, so \
-         simulated relatedness and Var(S_m) can only be lower than predicted (horizon_bias: approximate relative \
-         shortfall, BetaPrime tail)"
+         simulated relatedness and Var(S_m) can only be lower than predicted (horizon_bias: relative shortfall \
+         P(D > horizon - t_older | related) from the finite-horizon meeting law, mean over the pairs examined)"
             .to_string(),
         "D = time of the MRCA minus time of the older individual of the pair; D <= floor(x lag) counted".to_string(),
         format!(
@@ -978,9 +1023,18 @@ pub fn render_summary(report: &FamiliesReport) -> String {
         fmt_num(report.mean_families),
         fmt_num(largest)
     );
-    let _ = writeln!(s, "relatedness P(i ~ i+lag):   lag   simulated ± se        predicted");
+    let _ = writeln!(s, "relatedness P(i ~ i+lag):   lag   simulated ± se        predicted   within horizon");
     for r in report.relatedness.iter().filter(|r| [1, 2, 5, 10, 20, 50, 100, 1000].contains(&r.lag)) {
-        let _ = writeln!(s, "{:>32} {:>11} ± {:<9} {}", r.lag, fmt_num(r.simulated), opt(r.se), opt(r.predicted));
+        let within = r.predicted.zip(r.horizon_bias).map(|(p, b)| p * (1.0 - b));
+        let _ = writeln!(
+            s,
+            "{:>32} {:>11} ± {:<9} {:<11} {}",
+            r.lag,
+            fmt_num(r.simulated),
+            opt(r.se),
+            opt(r.predicted),
+            opt(within)
+        );
     }
     match &report.fit {
         Some(f) => {

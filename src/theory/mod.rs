@@ -9,6 +9,7 @@
 pub mod error;
 mod linalg;
 
+pub mod horizon;
 pub mod kingman;
 pub mod predict;
 pub mod relatedness;
