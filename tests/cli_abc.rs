@@ -64,6 +64,41 @@ fn compare_writes_its_files_and_does_not_depend_on_threads() {
 }
 
 #[test]
+fn compare_warns_in_print_and_json_when_few_are_accepted() {
+    // Source: the warning rules (fewer than 50 accepted; an observed statistic beyond the
+    // accepted simulations). 100 simulations per hypothesis at tolerance 0.1: 20 accepted
+    // in model choice, 10 in the estimation of geo (too few for a regression on the
+    // statistics). The observed S = 400 is far beyond what N = 60 produces.
+    let d = tempdir("compare-warn");
+    let far = OBSERVED.replace("\"segregating_sites\":9", "\"segregating_sites\":400");
+    let obs = write(&d, "observed.json", &far);
+    let (h0, h1) = (write(&d, "none.yaml", NONE), write(&d, "geo.yaml", GEO));
+    let out = d.join("out");
+    let args = ["compare", &obs, "--hypotheses", &h0, &h1, "--simulations", "100", "--tolerance", "0.1", "--out"];
+    let o = seedline(&[&args[..], &[out.to_str().unwrap()]].concat());
+    assert!(o.status.success(), "{}", String::from_utf8_lossy(&o.stderr));
+    let text = String::from_utf8_lossy(&o.stdout);
+    assert!(text.contains("warning: model choice: only 20 simulations accepted"), "{text}");
+    assert!(text.contains("warning: geo: posterior from only 10 accepted simulations"), "{text}");
+    assert!(text.contains("warning: geo: observed segregating_sites = 400 lies outside"), "{text}");
+    let json: serde_json::Value =
+        serde_json::from_str(&std::fs::read_to_string(out.join("compare.json")).unwrap()).unwrap();
+    let w = json["warnings"].as_array().unwrap();
+    let has = |kind: &str, h: Option<&str>| w.iter().any(|x| x["kind"] == kind && x["hypothesis"].as_str() == h);
+    assert!(has("few_accepted", None) && has("few_accepted", Some("geo")), "{w:?}");
+    assert!(has("no_regression", Some("geo")) && has("observed_outside_accepted", Some("geo")), "{w:?}");
+    let outside = w.iter().find(|x| x["kind"] == "observed_outside_accepted" && x["hypothesis"] == "geo").unwrap();
+    assert_eq!(outside["statistic"], "segregating_sites");
+    assert_eq!(outside["observed"], 400.0);
+    // Every posterior summary lies inside the prior [1, 4].
+    let post = std::fs::read_to_string(out.join("posterior.tsv")).unwrap();
+    for v in post.lines().nth(1).unwrap().split('\t').skip(2).take(4) {
+        let v: f64 = v.parse().unwrap();
+        assert!((1.0..=4.0).contains(&v), "{post}");
+    }
+}
+
+#[test]
 fn bad_input_exits_2_with_file_and_key_path() {
     let d = tempdir("bad");
     let obs = write(&d, "observed.json", OBSERVED);

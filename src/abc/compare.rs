@@ -13,6 +13,7 @@
 use super::regression::{self, ParameterPosterior};
 use super::rejection::{self, ModelShare};
 use super::{Error, Hypothesis, ObservedData, Simulated};
+use crate::report::fmt_num;
 use std::fmt::Write as _;
 use std::path::Path;
 
@@ -70,6 +71,8 @@ pub struct Estimation {
     pub accepted: Vec<AcceptedDraw>,
     /// One summary per prior.
     pub parameters: Vec<ParameterPosterior>,
+    /// Per statistic, the range [min, max] over the accepted simulations (None: none accepted).
+    pub accepted_range: Vec<Option<[f64; 2]>>,
 }
 
 /// The analysis of one observed vector against reference tables (no simulation, no I/O).
@@ -85,6 +88,8 @@ pub struct Analysis {
     pub logistic: Option<Vec<(f64, f64)>>,
     /// Simulations per hypothesis with an undefined statistic (never accepted).
     pub undefined: Vec<usize>,
+    /// Per statistic, the range [min, max] over the simulations accepted in model choice.
+    pub accepted_range: Vec<Option<[f64; 2]>>,
     /// Estimation per hypothesis (`None` without priors).
     pub estimation: Vec<Option<Estimation>>,
 }
@@ -114,7 +119,21 @@ pub fn analyse(
     });
     let estimation =
         priors.iter().zip(tables).map(|(p, t)| (!p.is_empty()).then(|| estimate(p, t, observed, tolerance))).collect();
-    Analysis { scales, accepted: acc.len(), shares, logistic, undefined, estimation }
+    let accepted_range = range_of(acc.iter().map(|&i| rows[i]), observed.len());
+    Analysis { scales, accepted: acc.len(), shares, logistic, undefined, accepted_range, estimation }
+}
+
+/// Per statistic (column), [min, max] over the defined values of `rows`; None without any.
+pub fn range_of<'r>(rows: impl Iterator<Item = &'r [Option<f64>]>, columns: usize) -> Vec<Option<[f64; 2]>> {
+    let mut out: Vec<Option<[f64; 2]>> = vec![None; columns];
+    for r in rows {
+        for (slot, v) in out.iter_mut().zip(r) {
+            if let Some(v) = *v {
+                *slot = Some(slot.map_or([v, v], |[lo, hi]| [lo.min(v), hi.max(v)]));
+            }
+        }
+    }
+    out
 }
 
 /// Rejection plus local-linear adjustment within one hypothesis's table.
@@ -145,7 +164,177 @@ pub fn estimate(priors: &[super::Prior], table: &[Simulated], observed: &[f64], 
             params: table[i].params.clone(),
         })
         .collect();
-    Estimation { scales, accepted, parameters }
+    let accepted_range = range_of(acc.iter().map(|&i| rows[i]), observed.len());
+    Estimation { scales, accepted, parameters, accepted_range }
+}
+
+/// Accepted simulations below which results are flagged (about 50: common practice).
+pub const FEW_ACCEPTED: usize = 50;
+
+/// What a [`Warning`] is about.
+#[derive(Debug, Clone, Copy, PartialEq, Eq, serde::Serialize)]
+#[serde(rename_all = "snake_case")]
+pub enum WarningKind {
+    /// Fewer than [`FEW_ACCEPTED`] simulations were accepted.
+    FewAccepted,
+    /// An observed statistic lies outside the range of the accepted simulations.
+    ObservedOutsideAccepted,
+    /// Too few accepted simulations for the regression adjustment: the posterior is plain
+    /// rejection ([`regression::MIN_RESIDUAL_DF`]).
+    NoRegression,
+}
+
+/// Something the reader must know before trusting a result (printed and in `compare.json`).
+#[derive(Debug, Clone, PartialEq, serde::Serialize)]
+pub struct Warning {
+    /// What it is about.
+    pub kind: WarningKind,
+    /// The hypothesis whose estimation it concerns; None for model choice (all hypotheses).
+    pub hypothesis: Option<String>,
+    /// The statistic concerned, if one.
+    pub statistic: Option<String>,
+    /// Its observed value.
+    pub observed: Option<f64>,
+    /// Its range [min, max] over the accepted simulations.
+    pub accepted_range: Option<[f64; 2]>,
+    /// Its range over all simulations of the set (all hypotheses for model choice).
+    pub simulated_range: Option<[f64; 2]>,
+    /// Simulations accepted in the step concerned.
+    pub accepted: usize,
+    /// The warning in words.
+    pub message: String,
+}
+
+fn outside(observed: f64, range: Option<[f64; 2]>) -> bool {
+    range.is_some_and(|[lo, hi]| observed < lo || observed > hi)
+}
+
+fn range_text(r: Option<[f64; 2]>) -> String {
+    r.map_or_else(|| "none".to_string(), |[lo, hi]| format!("[{}, {}]", fmt_num(lo), fmt_num(hi)))
+}
+
+/// The warnings of an analysis: for model choice (all hypotheses; left out when a single
+/// hypothesis is also estimated, which repeats it) and for each estimation, fewer than
+/// [`FEW_ACCEPTED`] accepted, each observed statistic outside the range of the accepted
+/// simulations (the regression adjustment then extrapolates), and estimations left
+/// unadjusted for want of accepted simulations. `names` are the hypothesis names,
+/// `statistics` the statistic names, both aligned with the analysis.
+pub fn warnings(
+    names: &[String],
+    statistics: &[String],
+    observed: &[f64],
+    tables: &[&[Simulated]],
+    analysis: &Analysis,
+) -> Vec<Warning> {
+    let mut out = Vec::new();
+    let cols = observed.len();
+    let model_choice = !(names.len() == 1 && analysis.estimation.first().is_some_and(Option::is_some));
+    let blank = |kind, hypothesis: Option<&String>, accepted, message| Warning {
+        kind,
+        hypothesis: hypothesis.cloned(),
+        statistic: None,
+        observed: None,
+        accepted_range: None,
+        simulated_range: None,
+        accepted,
+        message,
+    };
+    if model_choice {
+        let a = analysis.accepted;
+        if a < FEW_ACCEPTED {
+            out.push(blank(
+                WarningKind::FewAccepted,
+                None,
+                a,
+                format!(
+                    "model choice: only {a} simulations accepted (fewer than {FEW_ACCEPTED}): the probabilities are \
+                     rough; raise --simulations or --tolerance"
+                ),
+            ));
+        }
+        let all = range_of(tables.iter().flat_map(|t| t.iter().map(|s| s.stats.as_slice())), cols);
+        for (j, name) in statistics.iter().enumerate() {
+            let (o, acc) = (observed[j], analysis.accepted_range[j]);
+            if outside(o, acc) {
+                let beyond_all = if outside(o, all[j]) { ", and of all simulations " } else { "; all simulations: " };
+                out.push(Warning {
+                    statistic: Some(name.clone()),
+                    observed: Some(o),
+                    accepted_range: acc,
+                    simulated_range: all[j],
+                    ..blank(
+                        WarningKind::ObservedOutsideAccepted,
+                        None,
+                        a,
+                        format!(
+                            "model choice: observed {name} = {} lies outside the range of the {a} accepted simulations \
+                             {}{beyond_all}{}: no hypothesis reproduces it closely, the probabilities compare poor fits",
+                            fmt_num(o),
+                            range_text(acc),
+                            range_text(all[j])
+                        ),
+                    )
+                });
+            }
+        }
+    }
+    for (k, e) in analysis.estimation.iter().enumerate() {
+        let Some(e) = e else { continue };
+        let h = &names[k];
+        let a = e.accepted.len();
+        if a < FEW_ACCEPTED {
+            out.push(blank(
+                WarningKind::FewAccepted,
+                Some(h),
+                a,
+                format!(
+                    "{h}: posterior from only {a} accepted simulations (fewer than {FEW_ACCEPTED}): rough; raise \
+                     --simulations or --tolerance"
+                ),
+            ));
+        }
+        if e.parameters.first().is_some_and(|p| !p.regression) {
+            let p = e.scales.iter().filter(|&&s| s > 0.0).count();
+            let positive = e.accepted.iter().filter(|d| d.weight > 0.0).count();
+            out.push(blank(
+                WarningKind::NoRegression,
+                Some(h),
+                a,
+                format!(
+                    "{h}: {positive} accepted simulations of positive weight are too few for the regression on {p} \
+                     statistics (it needs {}): posterior from rejection only, not adjusted",
+                    p + 1 + regression::MIN_RESIDUAL_DF
+                ),
+            ));
+        }
+        let all = range_of(tables[k].iter().map(|s| s.stats.as_slice()), cols);
+        for (j, name) in statistics.iter().enumerate() {
+            let (o, acc) = (observed[j], e.accepted_range[j]);
+            if outside(o, acc) {
+                let beyond_all =
+                    if outside(o, all[j]) { ", and of all its simulations " } else { "; all its simulations: " };
+                out.push(Warning {
+                    statistic: Some(name.clone()),
+                    observed: Some(o),
+                    accepted_range: acc,
+                    simulated_range: all[j],
+                    ..blank(
+                        WarningKind::ObservedOutsideAccepted,
+                        Some(h),
+                        a,
+                        format!(
+                            "{h}: observed {name} = {} lies outside the range of its {a} accepted simulations \
+                             {}{beyond_all}{}: the regression adjustment extrapolates there",
+                            fmt_num(o),
+                            range_text(acc),
+                            range_text(all[j])
+                        ),
+                    )
+                });
+            }
+        }
+    }
+    out
 }
 
 /// A finished comparison: inputs, simulations and analysis.
@@ -169,6 +358,8 @@ pub struct CompareRun {
     pub analysis: Analysis,
     /// What the reader should know.
     pub notes: Vec<String>,
+    /// What the reader must check before trusting the results ([`warnings`]).
+    pub warnings: Vec<Warning>,
 }
 
 /// Checks the options, simulates the reference tables and analyses the observed data.
@@ -254,12 +445,8 @@ pub fn run(
             ));
         }
     }
-    if analysis.accepted < 50 {
-        notes.push(format!(
-            "only {} simulations accepted: model probabilities and posteriors are rough; raise --simulations",
-            analysis.accepted
-        ));
-    }
+    let names: Vec<String> = hypotheses.iter().map(|h| h.name.clone()).collect();
+    let warnings = warnings(&names, &statistics, &obs, &refs, &analysis);
     Ok(CompareRun {
         observed_file: observed.origin.clone(),
         hypotheses,
@@ -270,6 +457,7 @@ pub fn run(
         tables,
         analysis,
         notes,
+        warnings,
     })
 }
 
@@ -367,6 +555,7 @@ pub fn write(run: &CompareRun, dir: &Path) -> Result<Vec<std::path::PathBuf>, Er
             })),
         })).collect::<Vec<_>>(),
         "notes": run.notes,
+        "warnings": run.warnings,
     });
     let text = serde_json::to_string_pretty(&json).map_err(|e| Error::Options(e.to_string()))?;
     out.put(COMPARE_FILES[3], text.as_bytes())?;
@@ -409,8 +598,89 @@ pub fn render(run: &CompareRun) -> String {
             }
         }
     }
+    for w in &run.warnings {
+        let _ = writeln!(s, "warning: {}", w.message);
+    }
     for n in &run.notes {
         let _ = writeln!(s, "note: {n}");
     }
     s
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+    use crate::abc::{Prior, PriorKind};
+
+    fn sim(params: Vec<f64>, stats: &[f64]) -> Simulated {
+        Simulated { params, stats: stats.iter().map(|&v| Some(v)).collect(), sfs: vec![] }
+    }
+
+    fn names(v: &[&str]) -> Vec<String> {
+        v.iter().map(|s| s.to_string()).collect()
+    }
+
+    #[test]
+    fn warnings_for_model_choice_outside_and_few() {
+        // Source: the warning rules. Two hypotheses without priors: statistic a is 0..39 in
+        // the first and 100..139 in the second, b is 0 or 1; the observed a = 200 lies beyond
+        // every simulation. 10% of 80 = 8 accepted (< 50), all from the second hypothesis
+        // (a = 132..139).
+        let t0: Vec<Simulated> = (0..40).map(|i| sim(vec![], &[f64::from(i), f64::from(i % 2)])).collect();
+        let t1: Vec<Simulated> = (0..40).map(|i| sim(vec![], &[100.0 + f64::from(i), f64::from(i % 2)])).collect();
+        let tables: Vec<&[Simulated]> = vec![&t0, &t1];
+        let obs = [200.0, 0.5];
+        let a = analyse(&[&[], &[]], &tables, &obs, 0.1, Adjust::None);
+        assert_eq!(a.accepted, 8);
+        assert_eq!(a.accepted_range[0], Some([132.0, 139.0]));
+        let w = warnings(&names(&["h0", "h1"]), &names(&["a", "b"]), &obs, &tables, &a);
+        assert_eq!(w.len(), 2, "{w:?}");
+        assert_eq!((w[0].kind, w[0].hypothesis.as_deref(), w[0].accepted), (WarningKind::FewAccepted, None, 8));
+        assert!(w[0].message.contains("only 8 simulations accepted"), "{}", w[0].message);
+        assert_eq!(w[1].kind, WarningKind::ObservedOutsideAccepted);
+        assert_eq!(w[1].statistic.as_deref(), Some("a"));
+        assert_eq!(
+            (w[1].observed, w[1].accepted_range, w[1].simulated_range),
+            (Some(200.0), Some([132.0, 139.0]), Some([0.0, 139.0]))
+        );
+        assert!(w[1].message.contains("and of all simulations [0, 139]"), "{}", w[1].message);
+        // b = 0.5 lies inside [0, 1]: no warning for it.
+        assert!(w.iter().all(|x| x.statistic.as_deref() != Some("b")));
+    }
+
+    #[test]
+    fn warnings_for_an_estimation_without_regression() {
+        // Source: the warning rules and MIN_RESIDUAL_DF. One hypothesis with a uniform prior
+        // on [0, 1], 100 simulations, statistics a = θ + small wiggle and b = (i mod 7);
+        // tolerance 0.1: 10 accepted, 9 of positive weight, fewer than 2 + 1 + 10 = 13, so no
+        // regression. Observed inside the simulated ranges. Model choice is not repeated for
+        // a single estimated hypothesis.
+        let prior =
+            Prior { path: "x".into(), steps: vec![], kind: PriorKind::Uniform, low: 0.0, high: 1.0, integer: false };
+        let t: Vec<Simulated> = (0..100)
+            .map(|i| {
+                let th = f64::from(i) / 100.0;
+                sim(vec![th], &[th + 0.001 * f64::from(i % 3), f64::from(i % 7)])
+            })
+            .collect();
+        let tables: Vec<&[Simulated]> = vec![&t];
+        let priors: Vec<&[Prior]> = vec![std::slice::from_ref(&prior)];
+        let obs = [0.5, 3.0];
+        let a = analyse(&priors, &tables, &obs, 0.1, Adjust::None);
+        let e = a.estimation[0].as_ref().unwrap();
+        assert_eq!(e.accepted.len(), 10);
+        assert!(!e.parameters[0].regression);
+        let w = warnings(&names(&["h"]), &names(&["a", "b"]), &obs, &tables, &a);
+        let kinds: Vec<WarningKind> = w.iter().map(|x| x.kind).collect();
+        assert_eq!(kinds, [WarningKind::FewAccepted, WarningKind::NoRegression], "{w:?}");
+        assert!(w.iter().all(|x| x.hypothesis.as_deref() == Some("h")));
+        assert!(
+            w[1].message.contains("9 accepted simulations of positive weight") && w[1].message.contains("needs 13")
+        );
+        // With tolerance 0.3 (30 accepted, 29 positive) the regression is made; only the
+        // few-accepted warning is left.
+        let a = analyse(&priors, &tables, &obs, 0.3, Adjust::None);
+        let w = warnings(&names(&["h"]), &names(&["a", "b"]), &obs, &tables, &a);
+        assert_eq!(w.iter().map(|x| x.kind).collect::<Vec<_>>(), [WarningKind::FewAccepted]);
+    }
 }

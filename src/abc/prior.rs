@@ -91,21 +91,55 @@ impl Prior {
         if self.integer { x.round() } else { x }
     }
 
-    /// The scale on which the regression adjustment works: log θ for log-uniform priors,
-    /// θ itself for uniform ones.
-    pub fn to_regression_scale(&self, x: f64) -> f64 {
+    /// The open interval on which the regression transform works: the prior range; for a
+    /// whole-number parameter widened by half a unit on each side (the value k stands for
+    /// the draws rounded to it, so the ends low and high are finite on the logit scale). On
+    /// the log scale for a log-uniform prior.
+    fn transform_bounds(&self) -> (f64, f64) {
+        let (lo, hi) = if self.integer {
+            (self.low - (0.5f64).min(self.low / 2.0), self.high + 0.5)
+        } else {
+            (self.low, self.high)
+        };
         match self.kind {
-            PriorKind::Uniform => x,
-            PriorKind::LogUniform => x.ln(),
+            PriorKind::Uniform => (lo, hi),
+            PriorKind::LogUniform => (lo.ln(), hi.ln()),
         }
     }
 
-    /// Inverse of [`Prior::to_regression_scale`].
+    /// The scale on which the regression adjustment works: the logit of the position
+    /// inside the prior's bounds, after a log for a log-uniform prior,
+    ///
+    /// ```text
+    /// y = ln((t - a) / (b - t)),   t = x (uniform) or ln x (log-uniform), [a, b] the bounds
+    /// ```
+    /// (Hamilton, Stoneking & Excoffier 2005, PNAS 102:7476, with the local-linear
+    /// adjustment of Beaumont, Zhang & Balding 2002, Genetics 162:2025). Every real y maps
+    /// back inside the prior, so adjusted values cannot leave it. A value at a bound of a
+    /// continuous prior (a draw of probability 2^-53) is moved 1e-12 of the range inside.
+    pub fn to_regression_scale(&self, x: f64) -> f64 {
+        let (a, b) = self.transform_bounds();
+        let t = match self.kind {
+            PriorKind::Uniform => x,
+            PriorKind::LogUniform => x.ln(),
+        };
+        let eps = 1e-12 * (b - a);
+        let t = t.clamp(a + eps, b - eps);
+        ((t - a) / (b - t)).ln()
+    }
+
+    /// Inverse of [`Prior::to_regression_scale`], then clamped to [low, high] (this moves
+    /// only rounding errors, or, for a whole-number parameter, values in the outer half
+    /// units of the widened bounds).
     pub fn from_regression_scale(&self, y: f64) -> f64 {
-        match self.kind {
-            PriorKind::Uniform => y,
-            PriorKind::LogUniform => y.exp(),
-        }
+        let (a, b) = self.transform_bounds();
+        // Each branch divides by a number >= 1, so neither overflows nor cancels.
+        let t = if y >= 0.0 { b - (b - a) / (1.0 + y.exp()) } else { a + (b - a) / (1.0 + (-y).exp()) };
+        let x = match self.kind {
+            PriorKind::Uniform => t,
+            PriorKind::LogUniform => t.exp(),
+        };
+        if x.is_nan() { x } else { x.clamp(self.low, self.high) }
     }
 
     /// Prior density at x (0 outside [low, high]); used to draw the prior on figures.
