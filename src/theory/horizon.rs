@@ -38,6 +38,7 @@
 use super::relatedness::Relatedness;
 use super::renewal::{Convolver, RenewalError, series_inverse};
 use statrs::function::gamma::{gamma, ln_gamma};
+use std::cell::RefCell;
 
 /// Rooms (K) up to which [`HorizonLaw::within`] sums exactly by default.
 ///
@@ -47,7 +48,6 @@ use statrs::function::gamma::{gamma, ln_gamma};
 pub const EXACT_ROOM: usize = 1 << 14;
 
 /// Meeting probabilities within a finite horizon for one deme of N (forest regime).
-#[derive(Debug, Clone)]
 pub struct HorizonLaw<'a> {
     rel: &'a Relatedness,
     max_lag: usize,
@@ -60,6 +60,20 @@ pub struct HorizonLaw<'a> {
     /// a / S' of the singular expansion.
     ratio: f64,
     beta: f64,
+    /// FFT plans, reused from one room to the next.
+    conv: RefCell<Convolver>,
+}
+
+impl std::fmt::Debug for HorizonLaw<'_> {
+    fn fmt(&self, f: &mut std::fmt::Formatter<'_>) -> std::fmt::Result {
+        f.debug_struct("HorizonLaw")
+            .field("max_lag", &self.max_lag)
+            .field("exact_limit", &self.exact_limit())
+            .field("denom", &self.denom)
+            .field("ratio", &self.ratio)
+            .field("beta", &self.beta)
+            .finish_non_exhaustive()
+    }
 }
 
 impl<'a> HorizonLaw<'a> {
@@ -100,7 +114,7 @@ impl<'a> HorizonLaw<'a> {
         let beta = 1.0 - 2.0 * alpha;
         let a = c * c * gamma(1.0 - beta) / beta;
         let denom = rel.s().value + extra;
-        Ok(HorizonLaw { rel, max_lag, denom, h, partial, ratio: a / denom, beta })
+        Ok(HorizonLaw { rel, max_lag, denom, h, partial, ratio: a / denom, beta, conv: RefCell::default() })
     }
 
     /// The largest room summed exactly by [`HorizonLaw::within`].
@@ -135,7 +149,7 @@ impl<'a> HorizonLaw<'a> {
         let q = self.rel.renewal();
         // v reversed: v_k = q_k C_{room-k}, so (rev v * q)_{room+l} = sum_k v_k q_{k+l}.
         let rev: Vec<f64> = (0..=room).rev().map(|k| q[k] * self.partial[room - k]).collect();
-        let c = Convolver::default().linear(&rev, &q[..=room + max_lag], room + max_lag + 1);
+        let c = self.conv.borrow_mut().linear(&rev, &q[..=room + max_lag], room + max_lag + 1);
         c[room + 1..=room + max_lag].to_vec()
     }
 
