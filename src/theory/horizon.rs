@@ -26,7 +26,7 @@
 //! Phi(K) = sum_{m>=1} (a / S')^m [z^K] (1-z)^(m beta - 1)
 //!        = sum_{m>=1} (a / S')^m Gamma(K + 1 - m beta) / (Gamma(1 - m beta) Gamma(K + 1))
 //! ```
-//! (transfer of coefficients: Flajolet & Odlyzko 1990, SIAM J. Discrete Math. 3:216-240;
+//! (transfer of coefficients: Flajolet & Odlyzko 1990, SIAM J. Discrete Math. 3:216-240, from memory;
 //! derived here). The neglected terms are smaller by a relative O(K^-(1-alpha)) (next term of
 //! the expansion of q, theory reference §7.3) and O(l / K); for a mixture law only the
 //! leading term of q is known and the error is larger. [`HorizonLaw::within`] uses the
