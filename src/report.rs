@@ -709,9 +709,9 @@ pub fn render_prediction(scenario: &crate::scenario::Scenario, p: &crate::theory
     }
     if let Some((holds, why)) = &p.limit_holds {
         s.push_str(&format!(
-            "coalescent limit {}: {why}\n  ({}; limit predictions are labelled [limit] when it holds, [approximate] when not)\n",
+            "coalescent limit {}: {why}\n  (the condition of every limit: {}; a limit is labelled [limit] where it holds, [approximate] where not)\n",
             if *holds { "holds" } else { "does not hold" },
-            crate::theory::limits::CONDITION
+            crate::theory::limits::CONDITION.trim_start_matches("large-N limit: ")
         ));
     }
     let items = [

@@ -29,6 +29,9 @@ use std::collections::HashMap;
 /// Largest number of chain states built by default.
 pub const MAX_STATES: usize = 6000;
 
+/// Mass not yet at the MRCA below which propagation stops.
+const LEFT_MASS: f64 = 1e-14;
+
 /// Largest relative change of a coalescence rate over one step of an exponential epoch.
 const RATE_STEP: f64 = 0.005;
 
@@ -546,6 +549,11 @@ impl<'a> LineageChain<'a> {
         let steps = if g > 0.0 { ((t1 - t0) * g / RATE_STEP).ceil().max(1.0) } else { 1.0 };
         let h = (t1 - t0) / steps;
         for i in 0..steps as u64 {
+            // Once (after the last sample entered) almost all mass has reached the MRCA, the
+            // rest cannot change an expectation or a quantile.
+            if p.iter().enumerate().filter(|(s, _)| *s != DONE as usize).map(|(_, x)| x).sum::<f64>() < LEFT_MASS {
+                return Ok(());
+            }
             let a = t0 + i as f64 * h;
             let (rates, exit) = self.rates(a, a + h);
             self.uniformise(p, occ, &rates, &exit, h)?;

@@ -550,13 +550,10 @@ fn predict_without_recombination(s: &Scenario) -> Prediction {
         }
         return out;
     }
-    out.notes.push(format!(
-        "coalescent limit {}: {}",
-        if ctx.check.holds { "holds" } else { "does not hold" },
-        ctx.check.why()
-    ));
     pairs(&mut ctx, &mut out);
     whole_sample(&mut ctx, &mut out);
+    let mut seen = std::collections::HashSet::new();
+    out.notes.retain(|n| seen.insert(n.clone()));
     out
 }
 
@@ -568,7 +565,7 @@ fn pairs(ctx: &mut Ctx, out: &mut Prediction) {
     // Every pair of demes, two individuals of the present.
     let mut times = vec![vec![f64::NAN; names.len()]; names.len()];
     let mut parts = Vec::new();
-    'demes: for a in 0..names.len() {
+    for a in 0..names.len() {
         for b in a..names.len() {
             match ctx.pair(present(a), present(b), false) {
                 Ok(o) => {
@@ -577,31 +574,26 @@ fn pairs(ctx: &mut Ctx, out: &mut Prediction) {
                     out.deme_pair_times.push((names[a].to_string(), names[b].to_string(), o.mean.value));
                     parts.push(o.mean);
                 }
-                Err(e) => {
-                    out.notes.push(format!("pair times {}-{}: {e}", names[a], names[b]));
-                    out.deme_pair_times.clear();
-                    parts.clear();
-                    break 'demes;
-                }
+                Err(e) => out.notes.push(format!("pair {}-{}: {e}", names[a], names[b])),
             }
         }
     }
-    if !parts.is_empty() {
-        for a in 0..names.len() {
-            for b in a + 1..names.len() {
-                let f = 1.0 - 0.5 * (times[a][a] + times[b][b]) / times[a][b];
+    for a in 0..names.len() {
+        for b in a + 1..names.len() {
+            let f = 1.0 - 0.5 * (times[a][a] + times[b][b]) / times[a][b];
+            if f.is_finite() {
                 out.fst.push((names[a].to_string(), names[b].to_string(), f));
             }
         }
-        let refs: Vec<&Predicted> = parts.iter().collect();
-        if let Some((k, src, _)) = combine(&refs) {
-            out.deme_pair_source =
-                Some((k, format!("{src}; F_ST = 1 - (T_aa + T_bb)/(2 T_ab), a ratio of expectations")));
-        }
+    }
+    let refs: Vec<&Predicted> = parts.iter().collect();
+    if let Some((k, src, _)) = combine(&refs) {
+        out.deme_pair_source = Some((k, format!("{src}; F_ST = 1 - (T_aa + T_bb)/(2 T_ab), a ratio of expectations")));
     }
     // Every pair of the sample's classes.
     let classes = sample_classes(s);
     let mut by_pair: Vec<(usize, usize, f64, PairOutcome)> = Vec::new();
+    let mut failed: Vec<(usize, usize)> = Vec::new();
     for i in 0..classes.len() {
         for j in i..classes.len() {
             let (ci, ni) = classes[i];
@@ -631,7 +623,7 @@ fn pairs(ctx: &mut Ctx, out: &mut Prediction) {
                 }
                 Err(e) => {
                     out.notes.push(format!("pair {}-{}: {e}", class_label(s, &ci), class_label(s, &cj)));
-                    return;
+                    failed.push((i, j));
                 }
             }
         }
@@ -642,6 +634,10 @@ fn pairs(ctx: &mut Ctx, out: &mut Prediction) {
     // Averages over the sample's pairs.
     let avg =
         |sel: &dyn Fn(usize, usize) -> bool, f: &dyn Fn(&PairOutcome) -> Option<Predicted>| -> Option<Predicted> {
+            // Every pair covered must be known: one that never meets voids the average.
+            if failed.iter().any(|&(i, j)| sel(i, j)) {
+                return None;
+            }
             let (mut sum, mut w) = (0.0, 0.0);
             let mut parts = Vec::new();
             for (i, j, weight, o) in &by_pair {
@@ -780,20 +776,20 @@ fn from_sfs(out: &mut Prediction, sfs: &[f64], source: &str, kind: Kind, conditi
     out.segregating_sites_mean = Predicted::new(s_mean, source, kind, condition);
     out.theta_w_mean =
         Predicted::new(s_mean / harmonic(n as u32), &format!("E[S]/a_n (Watterson 1975); {source}"), kind, condition);
-    out.fay_wu_h_mean = Predicted::new(
-        theta_pi - theta_h,
-        &format!("E[theta_pi] - E[theta_H] (Fay & Wu 2000); {source}"),
-        kind,
-        condition,
-    );
+    // E[H] is 0 whenever the SFS is θ/i; keep rounding noise out of it.
+    let h = if (theta_pi - theta_h).abs() <= 1e-12 * theta_pi.abs() { 0.0 } else { theta_pi - theta_h };
+    out.fay_wu_h_mean =
+        Predicted::new(h, &format!("E[theta_pi] - E[theta_H] (Fay & Wu 2000); {source}"), kind, condition);
     if out.pi_mean.is_none() {
         out.pi_mean = Predicted::new(theta_pi, source, kind, condition);
     }
     if let Ok(k) = TajimaConstants::new(n as u32) {
         let var = k.e1 * s_mean + k.e2 * s_mean * (s_mean - 1.0);
+        let num = theta_pi - s_mean / k.a1;
+        let num = if num.abs() <= 1e-12 * theta_pi.abs() { 0.0 } else { num };
         if var > 0.0 && n > 2 {
             out.tajima_d_mean = Predicted::new(
-                (theta_pi - s_mean / k.a1) / var.sqrt(),
+                num / var.sqrt(),
                 "Tajima's D (1989) at the expected pi and S, not E[D] (D is a ratio; its mean is not 0 even under Kingman)",
                 Kind::Approximate,
                 "an approximation in every limit: D is a ratio",

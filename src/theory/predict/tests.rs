@@ -189,3 +189,18 @@ fn seed_age_delay() {
     assert!((seed_delay(&g).unwrap() - 4.0).abs() < 1e-12);
     assert_eq!(seed_delay(&Dormancy::None), Some(1.0));
 }
+
+#[test]
+fn isolated_demes_keep_what_is_finite() {
+    // Two demes with no migration: lineages of different demes never meet (infinite mean),
+    // but within each deme E[T_2] = N exactly (theory reference §1) and E[π] = 2Nμ L.
+    let s = scenario(
+        "demes: [{name: a, size: 300}, {name: b, size: 300}]\nsamples: [{deme: a, count: 2}, {deme: b, count: 2}]\nmutation: {rate: 1.0e-6, sites: 1000}\n",
+    );
+    let pr = predict(&s);
+    assert_eq!(pr.deme_pi.len(), 2);
+    assert!((pr.deme_pi[0].1.value - 0.6).abs() < 1e-9, "{:?}", pr.deme_pi);
+    assert!(pr.pi_mean.is_none() && pr.fst.is_empty() && pr.sample_fst.is_empty());
+    assert!(pr.notes.iter().any(|n| n.starts_with("pair a-b") && n.contains("never meet")), "{:?}", pr.notes);
+    assert_eq!(pr.notes.iter().filter(|n| n.starts_with("pair a-b")).count(), 1);
+}
