@@ -20,8 +20,9 @@
 //! Probab.* 38:285 (time change E\[R]²/d, d the gcd of the support; theory reference §3);
 //! Blath, González Casanova, Kurt & Wilke-Berenguer (2016) *Ann. Appl. Probab.* 26:857
 //! (theory reference §5; the look-back form and its (c, K) are §5.3 and
-//! [`SeedBankCoalescent::from_lookback`]); the structured coalescent with time in generations
-//! (Notohara 1990, *J. Math. Biol.* 29:59, citation from memory; theory reference §6).
+//! [`crate::theory::seedbank_coalescent::SeedBankCoalescent::from_lookback`]); the structured
+//! coalescent with time in generations (Notohara 1990, *J. Math. Biol.* 29:59, citation from
+//! memory; theory reference §6).
 //!
 //! **Migration scaling (derived).** The exact engine draws a parent deme once per
 //! parent–offspring link, with probability M\[d]\[e]. A lineage in a deme of finite-mean law
@@ -53,33 +54,17 @@
 //! at t + 1.
 
 use crate::demography::SizeEpoch;
-use crate::dormancy::{Dormancy, LookBack};
 use crate::genealogy::{Genealogy, Node};
 use crate::scenario::{SampleKind, Scenario};
-use crate::theory::seedbank_coalescent::SeedBankCoalescent;
 use rand::{Rng, RngExt};
 use rand_distr::{Distribution, Exp1};
 use std::fmt;
 use std::str::FromStr;
 
-/// Auto picks the exact engine when any deme has fewer individuals than this at any epoch
-/// start (or end of an exponential epoch): below it the discreteness of generations
-/// (multiple mergers, O(1/N) corrections) is no longer negligible at the 1% level.
-pub const MIN_DEME_SIZE: f64 = 200.0;
-
-/// Auto picks the exact engine when E\[R] or the look-back scale exceeds this fraction of N
-/// (dormancy comparable to N: neither limit holds), unless the law is of seed-bank-coalescent
-/// form.
-pub const MAX_LOOKBACK_FRACTION: f64 = 0.1;
-
-/// Tail level defining the look-back scale of an unbounded law: the smallest k with
-/// P(R > k) <= this.
-pub const LOOKBACK_TAIL: f64 = 1e-3;
-
-/// Largest switching rate c (per N generations) of the seed-bank coalescent that auto accepts:
-/// the number of switches per replicate grows like c, and for c ≫ 1 the process is a
-/// time-changed Kingman coalescent anyway.
-pub const MAX_SWITCH_RATE: f64 = 100.0;
+// The rule of `auto` lives in `theory::limits`, shared with `predict`; re-exported here.
+pub use crate::theory::limits::{
+    DemeLimit as DemeModel, LOOKBACK_TAIL, MAX_LOOKBACK_FRACTION, MAX_SWITCH_RATE, MIN_DEME_SIZE, lookback_scale,
+};
 
 /// Which engine the user asked for.
 #[derive(Debug, Clone, Copy, PartialEq, Eq, Default, serde::Serialize)]
@@ -152,232 +137,21 @@ pub enum ApproxError {
     UnknownEngine(String),
 }
 
-/// The limit process of one deme.
-#[derive(Debug, Clone, Copy, PartialEq, serde::Serialize)]
-pub enum DemeModel {
-    /// Kingman's coalescent slowed by the KKL factor `scale = E[R]²/d`.
-    Kingman {
-        /// E\[R].
-        mean: f64,
-        /// gcd d of the support of R.
-        gcd: u64,
-        /// E\[R]²/d.
-        scale: f64,
-    },
-    /// The seed-bank coalescent, rates per generation.
-    SeedBank {
-        /// Rate at which an active lineage goes dormant, w (g - 1)/g.
-        sleep: f64,
-        /// Rate at which a dormant lineage wakes, 1/g.
-        wake: f64,
-        /// Probability that a seed sampled from the bank is in a long dormancy, w g / E\[R].
-        dormant_seed: f64,
-        /// c (per N(0) generations), as in [`SeedBankCoalescent::from_lookback`].
-        c: f64,
-        /// K.
-        k: f64,
-    },
-}
-
-impl DemeModel {
-    /// Classifies a look-back law in a deme of present size `n0`.
-    ///
-    /// ```text
-    /// seed-bank form (from_lookback) with E[G] = g > n0/10   → SeedBank
-    /// finite mean, not time-dependent                          → Kingman, scale E[R]²/d
-    /// ```
-    /// Errors: time-dependent law (since_founding), infinite mean (power law with alpha <= 1
-    /// and no truncation).
-    pub fn of(law: &Dormancy, n0: f64) -> Result<DemeModel, String> {
-        if law.is_time_dependent() {
-            return Err("the since_founding law depends on time: no limit theorem applies".to_string());
-        }
-        if let (Some(sb), Some((w, g))) = (SeedBankCoalescent::from_lookback(law, n0), seedbank_parts(law))
-            && g > MAX_LOOKBACK_FRACTION * n0
-        {
-            let mean = law.mean().unwrap_or(f64::INFINITY);
-            return Ok(DemeModel::SeedBank {
-                sleep: w * (g - 1.0) / g,
-                wake: 1.0 / g,
-                dormant_seed: w * g / mean,
-                c: sb.c(),
-                k: sb.k(),
-            });
-        }
-        let Some(mean) = law.mean() else {
-            return Err(format!(
-                "the {} law has an infinite mean (heavy tail with alpha <= 1, untruncated): no Kingman limit",
-                law.law_name()
-            ));
-        };
-        let gcd = law.support_gcd().max(1);
-        Ok(DemeModel::Kingman { mean, gcd, scale: mean * mean / gcd as f64 })
-    }
-
-    /// Links (parent–offspring steps) per generation of an active lineage.
-    fn link_rate(&self) -> f64 {
-        match self {
-            DemeModel::Kingman { mean, .. } => 1.0 / mean,
-            DemeModel::SeedBank { .. } => 1.0,
-        }
-    }
-
-    /// Time-scale factor s in the pair coalescence rate 1/(s N).
-    fn coal_scale(&self) -> f64 {
-        match self {
-            DemeModel::Kingman { scale, .. } => *scale,
-            DemeModel::SeedBank { .. } => 1.0,
-        }
-    }
-}
-
-/// (w, g) of a mixture of `none` parts and one geometric part of weight w and mean g.
-fn seedbank_parts(law: &Dormancy) -> Option<(f64, f64)> {
-    let Dormancy::Mixture(m) = law else { return None };
-    let mut out = None;
-    for (w, part) in m.parts() {
-        match part {
-            Dormancy::None => {}
-            Dormancy::Geometric(g) if out.is_none() => out = Some((*w, g.mean()?)),
-            _ => return None,
-        }
-    }
-    out
-}
-
-/// The look-back scale: the largest value for a bounded law, else the smallest k with
-/// P(R > k) <= [`LOOKBACK_TAIL`] (found by doubling and bisection on the tail).
-pub fn lookback_scale(law: &Dormancy) -> f64 {
-    if let Some(m) = law.max_lookback() {
-        return m as f64;
-    }
-    let mut hi = 1u64;
-    while law.tail(hi) > LOOKBACK_TAIL {
-        if hi >= 1 << 62 {
-            return f64::INFINITY;
-        }
-        hi *= 2;
-    }
-    let mut lo = hi / 2;
-    while hi - lo > 1 {
-        let mid = lo + (hi - lo) / 2;
-        if law.tail(mid) > LOOKBACK_TAIL { lo = mid } else { hi = mid }
-    }
-    hi as f64
-}
-
-/// Smallest size a deme reaches, checked at every epoch start and at the end of every
-/// exponential epoch; for a last epoch shrinking back in time (growth > 0), at the time τ
-/// where the integrated pair hazard reaches 3 (95% of pairs have met):
-/// ```text
-/// ∫_0^τ du / (s N0 e^{-g u}) = 3   ⇒   N(τ) = N0 / (1 + 3 g s N0)
-/// ```
-fn min_size(epochs: &[SizeEpoch], s: f64) -> f64 {
-    let mut min = f64::INFINITY;
-    for (i, e) in epochs.iter().enumerate() {
-        min = min.min(e.size);
-        if e.growth != 0.0 {
-            let end = match epochs.get(i + 1) {
-                Some(next) => e.size * (-e.growth * (next.start - e.start) as f64).exp(),
-                None if e.growth > 0.0 => e.size / (1.0 + 3.0 * e.growth * s * e.size),
-                None => e.size,
-            };
-            min = min.min(end);
-        }
-    }
-    min
-}
-
-/// The limit model of every deme, or why one deme has none.
+/// The limit model of every deme, or why one deme has none ([`crate::theory::limits::deme_limits`]).
 fn deme_models(scenario: &Scenario) -> Result<Vec<DemeModel>, ApproxError> {
-    let migrates = scenario.migration().is_active();
-    let mut out = Vec::with_capacity(scenario.demes().len());
-    for (i, d) in scenario.demes().iter().enumerate() {
-        let err = |reason: String| ApproxError::OutOfDomain { deme: d.name().to_string(), reason };
-        let n0 = d.size().epochs()[0].size;
-        let m = DemeModel::of(d.dormancy(), n0).map_err(err)?;
-        if let DemeModel::Kingman { gcd, .. } = m
-            && gcd > 1
-        {
-            // Lineages on different residues mod d never meet in the exact model.
-            let mut residues = scenario.samples().iter().filter(|s| s.deme == i).map(|s| (s.time % gcd, s.kind));
-            let first = residues.next();
-            let same = residues.all(|r| Some(r) == first);
-            if migrates || !same || first.is_some_and(|(_, k)| k == SampleKind::Seedbank) {
-                return Err(err(format!(
-                    "the look-back support has period {gcd}: only samples of one residue mod {gcd}, \
-                     from the population and without migration, are modelled"
-                )));
-            }
-        }
-        out.push(m);
-    }
-    Ok(out)
+    crate::theory::limits::deme_limits(scenario)
+        .map_err(|e| ApproxError::OutOfDomain { deme: e.deme, reason: e.reason })
 }
 
-/// Picks the engine for `auto`, with the reason in words.
-///
-/// The approximate engine is picked when every deme has a limit model ([`DemeModel::of`]) and
-///
-/// - N >= [`MIN_DEME_SIZE`] at every epoch start (and end of exponential epochs, see the
-///   module docs);
-/// - Kingman demes: E\[R] <= N/10 and the look-back scale ([`lookback_scale`]) <= N/10, N the
-///   smallest size of the deme;
-/// - seed-bank demes: c <= [`MAX_SWITCH_RATE`].
-///
-/// Otherwise the exact engine: since_founding, infinite mean, a periodic law with migration
-/// or mixed residues, small N, dormancy comparable to N.
+/// Picks the engine for `auto`, with the reason in words: the exact engine with recombination
+/// (only it models it), otherwise the rule [`crate::theory::limits::check`] that `predict`
+/// also uses to label its limits.
 pub fn choose(scenario: &Scenario) -> (EngineKind, String) {
     if scenario.recombination().is_some() {
         return (EngineKind::Exact, "exact engine: only it models recombination within a locus".to_string());
     }
-    let models = match deme_models(scenario) {
-        Ok(m) => m,
-        Err(e) => return (EngineKind::Exact, format!("exact engine: no limit applies: {e}")),
-    };
-    let mut parts = Vec::new();
-    for (d, m) in scenario.demes().iter().zip(&models) {
-        let name = d.name();
-        let n = min_size(d.size().epochs(), m.coal_scale());
-        if n < MIN_DEME_SIZE {
-            return (
-                EngineKind::Exact,
-                format!("exact engine: deme `{name}` has N = {n:.0} < {MIN_DEME_SIZE} individuals at some time"),
-            );
-        }
-        match *m {
-            DemeModel::Kingman { mean, scale, .. } => {
-                let look = lookback_scale(d.dormancy());
-                if mean.max(look) > MAX_LOOKBACK_FRACTION * n {
-                    return (
-                        EngineKind::Exact,
-                        format!(
-                            "exact engine: deme `{name}`: look-back (mean {mean:.3}, scale {look}) exceeds N/10 = {:.0}",
-                            MAX_LOOKBACK_FRACTION * n
-                        ),
-                    );
-                }
-                parts.push(format!("`{name}` Kingman with time change E[R]^2/d = {scale:.4}"));
-            }
-            DemeModel::SeedBank { c, k, .. } => {
-                if c > MAX_SWITCH_RATE {
-                    return (
-                        EngineKind::Exact,
-                        format!("exact engine: deme `{name}`: seed-bank switching rate c = {c:.3} > {MAX_SWITCH_RATE}"),
-                    );
-                }
-                parts.push(format!("`{name}` seed-bank coalescent c = {c:.4}, K = {k:.4}"));
-            }
-        }
-    }
-    let mig = if scenario.migration().is_active() { "; structured coalescent for migration" } else { "" };
-    (
-        EngineKind::Approx,
-        format!(
-            "approximate engine: N >= {MIN_DEME_SIZE} and look-back <= N/10 in every deme: {}{mig}",
-            parts.join("; ")
-        ),
-    )
+    let c = crate::theory::limits::check(scenario);
+    (if c.holds { EngineKind::Approx } else { EngineKind::Exact }, c.reason)
 }
 
 /// Resolves a user's choice: `exact` always runs; `approx` runs when every deme has a limit

@@ -144,6 +144,19 @@ mod tests {
     }
 
     #[test]
+    fn approximate_predictions_are_never_differs() {
+        // Source: Kingman Monte Carlo, n = 10, theta = 10: E[Tajima's D] = -0.075 ± 0.004
+        // (independent recomputation reported with issue 11), against the plug-in value 0.
+        use crate::theory::predict::Kind;
+        assert_eq!(verdict(-0.075, Some(0.004), 0.0, Kind::Approximate), "approximate: not tested");
+        assert_eq!(verdict(-0.075, Some(0.004), 0.0, Kind::Exact), "differs");
+        assert_eq!(verdict(-0.005, Some(0.004), 0.0, Kind::Approximate), "agrees");
+        // A limit gets 3 se plus 1%: 101 ± 0.1 against 100 agrees, 102 ± 0.1 differs.
+        assert_eq!(verdict(101.0, Some(0.1), 100.0, Kind::Limit), "agrees");
+        assert_eq!(verdict(102.0, Some(0.1), 100.0, Kind::Limit), "differs");
+    }
+
+    #[test]
     fn atomic_write_leaves_no_temporary() {
         let dir = std::env::temp_dir().join(format!("seedline-report-{}", std::process::id()));
         fs::create_dir_all(&dir).unwrap();
@@ -583,8 +596,38 @@ pub struct Comparison {
     pub predicted: Option<f64>,
     /// Source of the prediction, or why none applies.
     pub source: String,
-    /// `agrees` (within 3 standard errors), `differs`, or `no prediction applies`.
+    /// `agrees`, `differs`, `approximate: not tested` or `no prediction applies` (see
+    /// [`verdict`]).
     pub verdict: String,
+    /// `exact`, `limit` or `approximate` (`none` without a prediction).
+    pub kind: String,
+}
+
+/// Relative allowance added to 3 standard errors for a limit prediction: the rule that labels
+/// a prediction a limit claims its finite-N error is negligible at the 1% level
+/// ([`crate::theory::limits::MIN_DEME_SIZE`]).
+pub const LIMIT_TOLERANCE: f64 = 0.01;
+
+/// The verdict of a simulated mean `m` (standard error `se`) against a prediction `p`:
+///
+/// - exact: `agrees` within 3 standard errors, else `differs`;
+/// - limit: `agrees` within 3 standard errors plus 1% of |p|, else `differs`;
+/// - approximate: `agrees` within 3 standard errors, else `approximate: not tested` — an
+///   approximation (a ratio of expectations, a limit outside its condition) is never
+///   reported as `differs`, since the simulator is the reference.
+pub fn verdict(m: f64, se: Option<f64>, p: f64, kind: crate::theory::predict::Kind) -> &'static str {
+    use crate::theory::predict::Kind;
+    let se = se.unwrap_or(0.0);
+    let room = match kind {
+        Kind::Exact | Kind::Approximate => 3.0 * se,
+        Kind::Limit => 3.0 * se + LIMIT_TOLERANCE * p.abs(),
+    };
+    let close = (m - p).abs() <= room || (m - p).abs() < 1e-9 * p.abs().max(1.0);
+    match (close, kind) {
+        (true, _) => "agrees",
+        (false, Kind::Approximate) => "approximate: not tested",
+        (false, _) => "differs",
+    }
 }
 
 fn compare(
@@ -593,32 +636,46 @@ fn compare(
     pr: &crate::theory::predict::Prediction,
     one_pair: bool,
 ) -> Vec<Comparison> {
-    use crate::theory::predict::Predicted;
+    use crate::theory::predict::{Kind, Predicted};
     let get = |name: &str| columns.iter().find(|(c, _)| c == name).map(|(_, s)| s.clone());
     let mut rows = Vec::new();
     let line = |quantity: String, sim: Option<ColumnSummary>, pred: Option<Predicted>| -> Option<Comparison> {
         let sim = sim?;
-        let (predicted, source) = match &pred {
-            Some(p) => (Some(p.value), format!("{}{}", p.source, if p.exact { " [exact]" } else { "" })),
-            None => (None, "-".to_string()),
+        let (predicted, source, kind) = match &pred {
+            Some(p) => (Some(p.value), format!("[{}] {}", p.kind.label(), p.source), p.kind.label().to_string()),
+            None => (None, "-".to_string(), "none".to_string()),
         };
-        let verdict = match (sim.mean, sim.se, predicted) {
-            (Some(m), Some(se), Some(p)) if se > 0.0 => {
-                if (m - p).abs() <= 3.0 * se { "agrees" } else { "differs" }.to_string()
-            }
-            (Some(m), _, Some(p)) if (m - p).abs() < 1e-9 * p.abs().max(1.0) => "agrees".to_string(),
-            (Some(_), _, Some(_)) => "differs".to_string(),
+        let verdict = match (sim.mean, &pred) {
+            (Some(m), Some(p)) => verdict(m, sim.se, p.value, p.kind).to_string(),
             _ => "no prediction applies".to_string(),
         };
-        Some(Comparison { quantity, simulated: sim.mean, interval: sim.mean_interval(), predicted, source, verdict })
+        Some(Comparison {
+            quantity,
+            simulated: sim.mean,
+            interval: sim.mean_interval(),
+            predicted,
+            source,
+            verdict,
+            kind,
+        })
     };
     let mut add = |q: String, sim: Option<ColumnSummary>, pred: Option<Predicted>| rows.extend(line(q, sim, pred));
     add("tmrca".into(), get("tmrca"), pr.tmrca_mean.clone());
     add("total_length".into(), get("total_length"), pr.total_length_mean.clone());
     add("segregating_sites".into(), get("segregating_sites"), pr.segregating_sites_mean.clone());
     add("pi".into(), get("pi"), pr.pi_mean.clone());
+    add("theta_w".into(), get("theta_w"), pr.theta_w_mean.clone());
     add("tajima_d".into(), get("tajima_d"), pr.tajima_d_mean.clone());
+    add("fay_wu_h".into(), get("fay_wu_h"), pr.fay_wu_h_mean.clone());
     add("haplotypes".into(), get("haplotypes"), pr.haplotypes_mean.clone());
+    for (deme, p) in &pr.deme_pi {
+        let col = format!("pi_{deme}");
+        add(col.clone(), get(&col), Some(p.clone()));
+    }
+    for (a, b, p) in &pr.sample_fst {
+        let col = format!("fst_{a}_{b}");
+        add(col.clone(), get(&col), Some(p.clone()));
+    }
     if let (Some(p), Some(roots), true) = (&pr.pair_meet_probability, get("roots"), one_pair) {
         // A sample of two at one locus: one root means the lineages met, so P(met) = 2 - E[roots].
         let met = ColumnSummary { mean: roots.mean.map(|m| 2.0 - m), quantiles: None, ..roots };
@@ -626,15 +683,17 @@ fn compare(
         add("pair met (2 - roots)".into(), Some(met), Some(Predicted { source, ..p.clone() }));
     }
     if let Some(exp) = &pr.sfs_expected {
+        let kind = pr.sfs_kind.unwrap_or(Kind::Approximate);
+        let src = pr.sfs_source.clone().unwrap_or_default();
         for (i, (s, e)) in sfs.iter().zip(exp).enumerate().take(5) {
-            add(
-                format!("xi_{}", i + 1),
-                Some(s.clone()),
-                Some(Predicted { value: *e, source: pr.sfs_source.clone().unwrap_or_default(), exact: false }),
-            );
+            add(format!("xi_{}", i + 1), Some(s.clone()), Predicted::new(*e, &src, kind, ""));
         }
     }
     rows
+}
+
+fn tagged(p: &crate::theory::predict::Predicted) -> String {
+    format!("[{}] {}", p.kind.label(), p.source)
 }
 
 /// Renders a prediction for the terminal.
@@ -648,34 +707,39 @@ pub fn render_prediction(scenario: &crate::scenario::Scenario, p: &crate::theory
     if let Some(r) = &p.regime {
         s.push_str(&format!("regime of the look-back law: {r}\n"));
     }
+    if let Some((holds, why)) = &p.limit_holds {
+        s.push_str(&format!(
+            "coalescent limit {}: {why}\n  (the condition of every limit: {}; a limit is labelled [limit] where it holds, [approximate] where not)\n",
+            if *holds { "holds" } else { "does not hold" },
+            crate::theory::limits::CONDITION.trim_start_matches("large-N limit: ")
+        ));
+    }
     let items = [
-        ("E[T_2] (pair)", &p.pair_time_mean),
+        ("E[T] (pairs)", &p.pair_time_mean),
         ("E[T_MRCA]", &p.tmrca_mean),
         ("E[total length]", &p.total_length_mean),
         ("E[S]", &p.segregating_sites_mean),
         ("Var[S] (one locus)", &p.segregating_sites_var),
         ("E[pi]", &p.pi_mean),
+        ("E[theta_W]", &p.theta_w_mean),
         ("E[Tajima's D]", &p.tajima_d_mean),
+        ("E[Fay & Wu's H]", &p.fay_wu_h_mean),
         ("E[haplotypes]", &p.haplotypes_mean),
         ("P(pair ever meets)", &p.pair_meet_probability),
     ];
     for (name, v) in items {
         match v {
-            Some(v) => s.push_str(&format!(
-                "{name:<20} {:>14}  {}{}\n",
-                fmt_num(v.value),
-                v.source,
-                if v.exact { " [exact]" } else { "" }
-            )),
+            Some(v) => s.push_str(&format!("{name:<20} {:>14}  {}\n", fmt_num(v.value), tagged(v))),
             None => s.push_str(&format!("{name:<20} {:>14}\n", "-")),
         }
     }
     if let Some(sfs) = &p.sfs_expected {
         let head: Vec<String> = sfs.iter().take(8).map(|x| fmt_num(*x)).collect();
         s.push_str(&format!(
-            "E[xi_1..]            {}{}  {}\n",
+            "E[xi_1..]            {}{}  [{}] {}\n",
             head.join(" "),
             if sfs.len() > 8 { " ..." } else { "" },
+            p.sfs_kind.map_or("-", |k| k.label()),
             p.sfs_source.as_deref().unwrap_or("")
         ));
     }
@@ -685,11 +749,44 @@ pub fn render_prediction(scenario: &crate::scenario::Scenario, p: &crate::theory
             fmt_num(*pr)
         ));
     }
+    if !p.pair_times.is_empty() {
+        s.push_str("pairs of sampled lineages (time of the common ancestor, generations before the present):\n");
+        s.push_str(&format!(
+            "  {:<28} {:>12} {:>12}  {:<45} {}\n",
+            "pair", "E[T]", "E[diff]", "quantiles 5% 25% 50% 75% 95%", "kind"
+        ));
+        for pt in &p.pair_times {
+            let q: Vec<String> = pt.quantiles.iter().map(|(_, t)| fmt_num(*t)).collect();
+            s.push_str(&format!(
+                "  {:<28} {:>12} {:>12}  {:<45} {}{}\n",
+                format!("{} - {}", pt.a, pt.b),
+                fmt_num(pt.mean.value),
+                pt.differences.as_ref().map_or("-".to_string(), |d| fmt_num(d.value)),
+                if q.is_empty() { "-".to_string() } else { q.join(" ") },
+                pt.mean.kind.label(),
+                pt.quantile_kind
+                    .filter(|k| *k != pt.mean.kind)
+                    .map_or(String::new(), |k| format!(" (quantiles {})", k.label())),
+            ));
+        }
+        if let Some(pt) = p.pair_times.first() {
+            s.push_str(&format!("  source: {}\n", pt.mean.source));
+        }
+    }
     for (a, b, t) in &p.deme_pair_times {
         s.push_str(&format!("E[T] pair {a}-{b}: {}\n", fmt_num(*t)));
     }
     for (a, b, f) in &p.fst {
         s.push_str(&format!("F_ST {a}-{b} (ratio of expectations): {}\n", fmt_num(*f)));
+    }
+    if let Some((k, src)) = &p.deme_pair_source {
+        s.push_str(&format!("  [{}] {src}\n", k.label()));
+    }
+    for (d, v) in &p.deme_pi {
+        s.push_str(&format!("E[pi_{d}] (sample pairs in {d}): {}  {}\n", fmt_num(v.value), tagged(v)));
+    }
+    for (a, b, v) in &p.sample_fst {
+        s.push_str(&format!("F_ST {a}-{b} of the sample: {}  [{}]\n", fmt_num(v.value), v.kind.label()));
     }
     for n in &p.notes {
         s.push_str(&format!("note: {n}\n"));
@@ -703,17 +800,17 @@ pub fn render_comparison(rows: &[Comparison]) -> String {
         return String::new();
     }
     let mut s = String::from(
-        "\nsimulated against theory (95% interval of the simulated mean; agrees = within 3 standard errors)\n",
+        "\nsimulated against theory (95% interval of the simulated mean; agrees = within 3 standard errors, plus 1% for a limit; an approximate prediction is never 'differs')\n",
     );
     s.push_str(&format!(
-        "{:<20} {:>12} {:>27} {:>12}  {:<22} {}\n",
+        "{:<20} {:>12} {:>27} {:>12}  {:<24} {}\n",
         "quantity", "simulated", "95% interval", "predicted", "verdict", "source"
     ));
     for r in rows {
         let sim = r.simulated.map_or("-".to_string(), fmt_num);
         let ci = r.interval.map_or("-".to_string(), |(a, b)| format!("[{}, {}]", fmt_num(a), fmt_num(b)));
         let pred = r.predicted.map_or("-".to_string(), fmt_num);
-        s.push_str(&format!("{:<20} {sim:>12} {ci:>27} {pred:>12}  {:<22} {}\n", r.quantity, r.verdict, r.source));
+        s.push_str(&format!("{:<20} {sim:>12} {ci:>27} {pred:>12}  {:<24} {}\n", r.quantity, r.verdict, r.source));
     }
     s
 }

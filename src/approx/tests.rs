@@ -1,6 +1,6 @@
 use super::*;
 use crate::batch::{master_key, replicate_rng};
-use crate::dormancy::{Geometric, Mixture};
+use crate::dormancy::{Dormancy, Geometric, Mixture};
 
 fn scenario(yaml: &str) -> Scenario {
     Scenario::from_yaml_str(yaml, "test").unwrap()

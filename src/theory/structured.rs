@@ -3,12 +3,12 @@
 //!
 //! Each generation both lineages independently pick the deme of their parent from their
 //! row of M (M\[i]\[k] = P(parent in deme k | lineage in deme i)); if they land in the same
-//! deme k they pick the same parent with probability 1/N_k. No dormancy in the chain itself;
-//! see [`PairTimes::with_weak_seed_bank`].
+//! deme k they pick the same parent with probability 1/N_k. No dormancy: with dormancy a
+//! lineage draws its parent's deme once per look-back, not once per generation, so scaling
+//! these times by E\[R]²/d is wrong; [`super::pair_exact`] solves that model exactly.
 
 use super::error::TheoryError;
 use super::linalg::solve;
-use crate::dormancy::Dormancy;
 
 /// Expected coalescence times E\[T(i, j)] in generations for two lineages sampled in demes
 /// i and j (distinct individuals when i = j).
@@ -39,17 +39,6 @@ impl PairTimes {
     /// (Hudson, Slatkin & Maddison 1992; ratio of expectations, theory reference §6.)
     pub fn fst(&self, i: usize, j: usize) -> f64 {
         1.0 - 0.5 * (self.get(i, i) + self.get(j, j)) / self.get(i, j)
-    }
-
-    /// Multiplies every time by the weak-seed-bank factor E\[R]²/d of a dormancy law shared by
-    /// all demes.
-    ///
-    /// This is the large-N scaling of Kaj, Krone & Lascoux (2001): exact for the mean of one
-    /// deme, an approximation with several demes (migration is counted per generation, not
-    /// per look-back link). Errors for infinite-mean or time-dependent laws.
-    pub fn with_weak_seed_bank(&self, dormancy: &Dormancy) -> Result<PairTimes, TheoryError> {
-        let f = super::weak_seedbank::time_scale(dormancy)?;
-        Ok(PairTimes { demes: self.demes, times: self.times.iter().map(|t| t * f).collect() })
     }
 }
 
@@ -145,7 +134,6 @@ pub fn island_between_continuous(demes: usize, pop_size: f64, m: f64) -> f64 {
 #[cfg(test)]
 mod tests {
     use super::*;
-    use crate::dormancy::Uniform;
 
     #[test]
     fn pair_index_is_a_bijection() {
@@ -202,9 +190,6 @@ mod tests {
         }
         let t = pair_coalescence_times(&[12.0], &[vec![1.0]]).unwrap();
         assert!((t.get(0, 0) - 12.0).abs() < 1e-12);
-        // Scaled by E[R]² = 2.5² for uniform {1..4}.
-        let s = t.with_weak_seed_bank(&Dormancy::Uniform(Uniform::new(4).unwrap())).unwrap();
-        assert!((s.get(0, 0) - 75.0).abs() < 1e-10);
     }
 
     #[test]
