@@ -60,13 +60,22 @@ enum Command {
         #[arg(long)]
         json: bool,
     },
-    /// Summary statistics of observed data (VCF of biallelic SNPs) with the simulate columns
+    /// Summary statistics of observed data (VCF/BCF of biallelic SNPs), per locus and genome-wide, with the simulate columns
     Observe {
-        /// VCF file, plain or bgzip-compressed (.vcf.gz)
+        /// VCF file (plain, gzip or bgzip) or BCF
         data: PathBuf,
-        /// Sample map (TSV with columns sample, deme, optional generations_ago, ploidy)
+        /// Sample map (TSV with columns sample, deme, optional generations_ago, ploidy); a sample is a plant
         #[arg(long)]
         samples: PathBuf,
+        /// Cut each contig into windows of BP bases, each a locus (default: each contig is one locus)
+        #[arg(long, value_name = "BP", conflicts_with = "regions")]
+        windows: Option<u64>,
+        /// Loci from a BED file (0-based, half-open; regions may not overlap)
+        #[arg(long, value_name = "FILE.bed")]
+        regions: Option<PathBuf>,
+        /// Callable sites from a BED file: records outside are skipped, per-site values use the callable length
+        #[arg(long, value_name = "FILE.bed")]
+        mask: Option<PathBuf>,
         /// Output directory for observed.json, observed.tsv, sfs.tsv
         #[arg(long, default_value = "seedline-observed")]
         out: PathBuf,
@@ -322,14 +331,15 @@ fn run(cli: Cli) -> Result<()> {
             }
             Ok(())
         }
-        Command::Observe { data, samples, out, project, drop_missing } => {
+        Command::Observe { data, samples, windows, regions, mask, out, project, drop_missing } => {
             use seedline::observed::{self, Missing};
             let missing = match (project, drop_missing) {
                 (Some(m), _) => Missing::Project(m),
                 (None, true) => Missing::Drop,
                 (None, false) => Missing::Refuse,
             };
-            let obs = observed::observe_files(&data, &samples, missing)?;
+            let options = observed::Options::from_files(missing, windows, regions.as_deref(), mask.as_deref())?;
+            let obs = observed::observe_files_with(&data, &samples, &options)?;
             observed::write_outputs(&obs, &out).with_context(|| format!("writing into {}", out.display()))?;
             let wrote = observed::OBSERVE_FILES.map(|f| out.join(f).display().to_string()).join(", ");
             // Through write_all so that a closed pipe is an error, not a panic.

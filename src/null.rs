@@ -217,8 +217,8 @@ fn replicate_with(
             let mut rng = batch::locus_rng(key, rep, 0);
             let g = sim.simulate(sc, &mut rng);
             let demes: Vec<u32> = sc.samples().iter().map(|x| x.deme as u32).collect();
-            let model = sc.mutation().expect("checked by run");
-            let m = crate::mutation::place_with(&g, model, Count::Fixed(s), demes, &mut rng)?;
+            let model = sc.locus_mutation(0).expect("checked by run");
+            let m = crate::mutation::place_with(&g, &model, Count::Fixed(s), demes, &mut rng)?;
             let stats = crate::stats::SampleStats::from_haplotypes(&m.haplotypes);
             Ok(vec![batch::LocusOutcome::of_genealogy(&g, Some(stats))])
         }

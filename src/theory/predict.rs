@@ -125,6 +125,13 @@ impl Prediction {
 /// Predictions for a scenario (pure; never simulates).
 pub fn predict(s: &Scenario) -> Prediction {
     let mut out = predict_without_recombination(s);
+    if s.locus_lengths().is_some_and(|v| v.iter().any(|&x| x != v[0])) {
+        out.haplotypes_mean = None;
+        out.segregating_sites_var = None;
+        out.notes.push(
+            "loci of different lengths: means of sums (S, pi, the SFS) add up over loci; E[haplotypes] and Var[S] are per-locus quantities, so none is given".into(),
+        );
+    }
     if s.recombination().is_some_and(|r| r.recombination_rate() > 0.0 && r.sites() > 1) {
         // Every site has the genealogy of the model without recombination, so means of sums
         // over sites still hold; haplotype counts and Var[S] depend on the linkage.
@@ -147,7 +154,12 @@ fn predict_without_recombination(s: &Scenario) -> Prediction {
             "samples are taken at different times or from the seed bank: the published formulas assume a sample of the present, so no T_MRCA, length or SFS prediction applies".into(),
         );
     }
-    let loci = s.loci() as f64;
+    // Sums over loci scale with the sites: with per-locus lengths, loci × mutation.sites (the
+    // longest) is replaced by the total number of sites.
+    let loci = match (s.total_sites(), s.mutation()) {
+        (Some(t), Some(m)) => t as f64 / m.sites() as f64,
+        _ => s.loci() as f64,
+    };
     let laws: Vec<&Dormancy> = demes.iter().map(|d| d.dormancy()).collect();
     let mut regimes = Vec::new();
     for (d, law) in demes.iter().zip(&laws) {
