@@ -286,6 +286,7 @@ fn main() -> ExitCode {
                     || c.is::<seedline::observed::Error>()
                     || c.is::<seedline::approx::ApproxError>()
                     || c.is::<seedline::null::SettingsMismatch>()
+                    || c.is::<seedline::null::LayoutMismatch>()
                     || c.downcast_ref::<seedline::abc::Error>().is_some_and(|a| a.is_bad_input())
             });
             ExitCode::from(if bad_input { 2 } else { 1 })
@@ -418,8 +419,13 @@ fn run(cli: Cli) -> Result<()> {
             let report = nl::test(&obs, &table)?;
             nl::write_test(&report, &table, &out)?;
             print!("{}", nl::render_test(&report));
+            let loci = if report.loci.is_empty() {
+                String::new()
+            } else {
+                format!(", {}", out.join(nl::LOCI_TEST_FILE).display())
+            };
             println!(
-                "wrote {}, {}, {}",
+                "wrote {}, {}{loci}, {}",
                 out.join("test.tsv").display(),
                 out.join("test.json").display(),
                 out.join("figures").display()
