@@ -208,6 +208,9 @@ enum Command {
         /// Statistics to test, comma-separated (sfs_chi2 is always added)
         #[arg(long, value_delimiter = ',')]
         statistics: Option<Vec<String>>,
+        /// Simulate the loci of an `observe` result (their callable lengths) in every design
+        #[arg(long, value_name = "OBSERVED.json")]
+        like: Option<PathBuf>,
         /// Worker threads (0 = one per core)
         #[arg(long, default_value_t = 0)]
         threads: usize,
@@ -461,10 +464,26 @@ fn run(cli: Cli) -> Result<()> {
             replicates,
             power_replicates,
             statistics,
+            like,
             threads,
             out,
         } => {
             use seedline::abc::{self, design};
+            let layout = match &like {
+                Some(p) => {
+                    let o = abc::load_observed(p)?;
+                    let l = o.layout();
+                    if l.is_none() {
+                        return Err(BadInput(format!(
+                            "--like {}: the file records no loci (write it with `seedline observe`)",
+                            p.display()
+                        ))
+                        .into());
+                    }
+                    l
+                }
+                None => None,
+            };
             let names = abc::unique_names(&[null.display().to_string(), alternative.display().to_string()]);
             let h0 = abc::load_hypothesis(&null, &names[0])?;
             let h1 = abc::load_hypothesis(&alternative, &names[1])?;
@@ -472,7 +491,8 @@ fn run(cli: Cli) -> Result<()> {
             let text = std::fs::read_to_string(&designs)
                 .map_err(|e| BadInput(format!("cannot read designs file {origin}: {e}")))?;
             let file = design::parse_designs(&text, &origin)?;
-            let opts = design::DesignOptions { level, target, replicates, power_replicates, statistics, threads };
+            let opts =
+                design::DesignOptions { level, target, replicates, power_replicates, statistics, threads, layout };
             let bar = progress_bar((replicates + power_replicates) * file.designs.len() as u64);
             let result = design::run(&h0, &h1, &file, opts, &|| bar.inc(1))?;
             bar.finish_and_clear();

@@ -190,6 +190,14 @@ pub fn run(
     if hypotheses.is_empty() {
         return Err(Error::Options("give at least one hypothesis file with --hypotheses".into()));
     }
+    // The hypotheses simulate the observed sample design and loci, when the file records them.
+    let mut hypotheses = hypotheses;
+    if !observed.design.is_empty() {
+        hypotheses = hypotheses.iter().map(|h| h.with_observed_design(&observed.design)).collect::<Result<_, _>>()?;
+    }
+    if let Some(lengths) = observed.layout() {
+        hypotheses = hypotheses.iter().map(|h| h.with_layout(&lengths)).collect::<Result<_, _>>()?;
+    }
     let mut examples = Vec::new();
     for h in &hypotheses {
         let s = h.example()?;
