@@ -99,6 +99,7 @@ fn fill(record: &bcf::Record, header: &vcf::Header, mapped: &[usize], rec: &mut 
     rec.alternates = alternates(record)?;
     rec.passes = passes(record, header)?;
     rec.ancestral = ancestral_allele(record, header)?;
+    rec.uniform = None;
     genotypes(record, header, mapped, rec)
 }
 

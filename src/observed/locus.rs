@@ -55,7 +55,9 @@ pub struct LocusSums {
     pub used: u64,
     /// Used sites with an ancestral allele.
     pub polarised_sites: u64,
-    fingerprints: Vec<u128>,
+    /// Low and high 64 bits of each sequence's fingerprint (two arrays, so that the update
+    /// vectorises).
+    fingerprints: [Vec<u64>; 2],
     no_haplotypes: Option<NoHaplotypes>,
     site_ordinal: u64,
 }
@@ -86,7 +88,7 @@ impl LocusSums {
             deme_gaps: 0,
             used: 0,
             polarised_sites: 0,
-            fingerprints: vec![0; n],
+            fingerprints: [vec![0; n], vec![0; n]],
             no_haplotypes: (m as usize != n).then_some(NoHaplotypes::Projected),
             site_ordinal: 0,
         }
@@ -123,16 +125,19 @@ impl LocusSums {
         self.no_haplotypes.get_or_insert(why);
     }
 
-    /// Folds the sequences in `carriers` (indices among the n sequences) into the
-    /// fingerprints, as one more used site of the locus.
-    pub fn add_carriers(&mut self, carriers: impl Iterator<Item = usize>) {
+    /// Folds the sequences whose allele (one per sequence, in order) equals `derived` into
+    /// the fingerprints, as one more used site of the locus.
+    pub fn add_carriers(&mut self, alleles: &[u8], derived: u8) {
         if self.no_haplotypes.is_some() {
             return;
         }
         let key = site_key(self.site_ordinal);
         self.site_ordinal += 1;
-        for i in carriers {
-            self.fingerprints[i] ^= key;
+        // Branch-free so that the loops vectorise.
+        for (half, k) in self.fingerprints.iter_mut().zip([key as u64, (key >> 64) as u64]) {
+            for (f, &a) in half.iter_mut().zip(alleles) {
+                *f ^= k & 0u64.wrapping_sub(u64::from(a == derived));
+            }
         }
     }
 
@@ -141,7 +146,8 @@ impl LocusSums {
         if let Some(why) = self.no_haplotypes {
             return Err(why);
         }
-        let mut f = self.fingerprints.clone();
+        let [lo, hi] = &self.fingerprints;
+        let mut f: Vec<u128> = lo.iter().zip(hi).map(|(&l, &h)| u128::from(h) << 64 | u128::from(l)).collect();
         f.sort_unstable();
         f.dedup();
         Ok(f.len())
@@ -224,14 +230,14 @@ mod tests {
         // Sequences 0..5 over three sites: carriers {0,1}, {1}, {0,1}.
         // Rows: 0 = {s0, s2}, 1 = {s0, s1, s2}, 2..4 = {}: three distinct haplotypes (by hand).
         let mut l = LocusSums::new(5, 1, 5);
-        for carriers in [vec![0, 1], vec![1], vec![0, 1]] {
-            l.add_carriers(carriers.into_iter());
+        for alleles in [[1, 1, 0, 0, 0], [0, 1, 0, 0, 0], [1, 1, 0, 0, 0]] {
+            l.add_carriers(&alleles, 1);
         }
         assert_eq!(l.haplotypes(), Ok(3));
         // Orienting the middle site the other way (carriers {0, 2, 3, 4}) changes nothing.
         let mut f = LocusSums::new(5, 1, 5);
-        for carriers in [vec![0, 1], vec![0, 2, 3, 4], vec![0, 1]] {
-            f.add_carriers(carriers.into_iter());
+        for (alleles, derived) in [([1, 1, 0, 0, 0], 1), ([1, 0, 1, 1, 1], 1), ([0, 0, 1, 1, 1], 0)] {
+            f.add_carriers(&alleles, derived);
         }
         assert_eq!(f.haplotypes(), Ok(3));
         // No site at all: one haplotype.

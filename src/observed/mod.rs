@@ -83,6 +83,7 @@ use crate::stats::stat_columns;
 use serde::Serialize;
 use std::collections::{BTreeMap, HashMap, HashSet};
 use std::io::{self, BufRead, Read};
+use std::num::NonZero;
 use std::path::Path;
 
 /// Why observed data could not be read.
@@ -621,14 +622,98 @@ pub fn open_input(path: &Path) -> Result<Input<'static>, Error> {
     let gzip = magic.starts_with(&[0x1f, 0x8b]);
     // RFC 1952: FLG bit 2 = FEXTRA; XLEN at bytes 10-11; BGZF's subfield is `BC` (SAM spec §4.1).
     let bgzf = gzip && magic.len() >= 14 && magic[3] & 4 != 0 && &magic[12..14] == b"BC";
+    // Decompression runs on other threads, so that reading costs about the larger of
+    // decompressing and parsing rather than their sum.
     let reader: Box<dyn BufRead> = if bgzf {
-        Box::new(noodles::bgzf::io::Reader::new(r))
+        Box::new(noodles::bgzf::io::MultithreadedReader::with_worker_count(NonZero::<usize>::MIN, r))
     } else if gzip {
-        Box::new(io::BufReader::with_capacity(1 << 16, flate2::bufread::MultiGzDecoder::new(r)))
+        Box::new(ThreadedReader::new(flate2::bufread::MultiGzDecoder::new(r)))
     } else {
         Box::new(r)
     };
     Ok(Input { reader, compressed: gzip })
+}
+
+/// A reader that reads `inner` on its own thread, a block ahead.
+struct ThreadedReader {
+    rx: std::sync::mpsc::Receiver<io::Result<Vec<u8>>>,
+    back: std::sync::mpsc::SyncSender<Vec<u8>>,
+    block: Vec<u8>,
+    at: usize,
+}
+
+impl ThreadedReader {
+    fn new<R: Read + Send + 'static>(mut inner: R) -> Self {
+        let (tx, rx) = std::sync::mpsc::sync_channel::<io::Result<Vec<u8>>>(4);
+        let (back, spare) = std::sync::mpsc::sync_channel::<Vec<u8>>(8);
+        std::thread::spawn(move || {
+            loop {
+                let mut buf = spare.try_recv().unwrap_or_default();
+                buf.resize(1 << 18, 0);
+                let mut filled = 0;
+                // Fill the block (short reads are common) so that blocks stay large.
+                let result = loop {
+                    match inner.read(&mut buf[filled..]) {
+                        Ok(0) => break Ok(()),
+                        Ok(k) => {
+                            filled += k;
+                            if filled == buf.len() {
+                                break Ok(());
+                            }
+                        }
+                        Err(e) if e.kind() == io::ErrorKind::Interrupted => {}
+                        Err(e) => break Err(e),
+                    }
+                };
+                buf.truncate(filled);
+                let end = filled == 0;
+                let sent = match result {
+                    Ok(()) => tx.send(Ok(buf)),
+                    Err(e) => {
+                        let _ = tx.send(Ok(buf));
+                        let _ = tx.send(Err(e));
+                        return;
+                    }
+                };
+                if sent.is_err() || end {
+                    return;
+                }
+            }
+        });
+        ThreadedReader { rx, back, block: Vec::new(), at: 0 }
+    }
+}
+
+impl Read for ThreadedReader {
+    fn read(&mut self, out: &mut [u8]) -> io::Result<usize> {
+        let available = self.fill_buf()?;
+        let k = out.len().min(available.len());
+        out[..k].copy_from_slice(&available[..k]);
+        self.consume(k);
+        Ok(k)
+    }
+}
+
+impl BufRead for ThreadedReader {
+    fn fill_buf(&mut self) -> io::Result<&[u8]> {
+        while self.at == self.block.len() {
+            match self.rx.recv() {
+                Ok(Ok(b)) if b.is_empty() => return Ok(&[]),
+                Ok(Ok(b)) => {
+                    let old = std::mem::replace(&mut self.block, b);
+                    let _ = self.back.try_send(old);
+                    self.at = 0;
+                }
+                Ok(Err(e)) => return Err(e),
+                Err(_) => return Ok(&[]),
+            }
+        }
+        Ok(&self.block[self.at..])
+    }
+
+    fn consume(&mut self, amount: usize) {
+        self.at = (self.at + amount).min(self.block.len());
+    }
 }
 
 impl<'a> Input<'a> {
@@ -731,7 +816,16 @@ struct Run<'a> {
     alleles: Vec<u8>,
     m_deme: Vec<u32>,
     c_deme: Vec<u32>,
-    seq_deme: Vec<u32>,
+    /// Position of each mapped sample's first sequence in `alleles`, where sequences are
+    /// grouped by deme so that per-deme counts run over contiguous ranges.
+    offset: Vec<usize>,
+    /// The range of each deme in `alleles`.
+    deme_range: Vec<(usize, usize)>,
+    /// The ploidy of every mapped sample, when they all have the same.
+    uniform_ploidy: Option<u8>,
+    /// `offset[k] = p k`: mapped order is already deme-grouped.
+    identity_layout: bool,
+    scratch: Vec<Call>,
 }
 
 impl<'a> Run<'a> {
@@ -767,7 +861,11 @@ impl<'a> Run<'a> {
             alleles: Vec::new(),
             m_deme: vec![0; demes],
             c_deme: vec![0; demes],
-            seq_deme: Vec::new(),
+            offset: Vec::new(),
+            deme_range: Vec::new(),
+            uniform_ploidy: None,
+            identity_layout: false,
+            scratch: Vec::new(),
         })
     }
 
@@ -784,15 +882,28 @@ impl<'a> Run<'a> {
     fn set_shape(&mut self) -> Result<(), Error> {
         let n: u32 = self.mapped.iter().map(|s| u32::from(s.ploidy.unwrap_or(0))).sum();
         let m = check_m(self.options.missing, n)?;
-        self.seq_deme = self
+        let mut deme_size = vec![0u32; self.demes];
+        for s in &self.mapped {
+            deme_size[s.deme] += u32::from(s.ploidy.unwrap_or(0));
+        }
+        let mut start = vec![0usize; self.demes];
+        for d in 1..self.demes {
+            start[d] = start[d - 1] + deme_size[d - 1] as usize;
+        }
+        self.deme_range = (0..self.demes).map(|d| (start[d], start[d] + deme_size[d] as usize)).collect();
+        self.offset = self
             .mapped
             .iter()
-            .flat_map(|s| std::iter::repeat_n(s.deme as u32, s.ploidy.unwrap_or(0) as usize))
+            .map(|s| {
+                let o = start[s.deme];
+                start[s.deme] += s.ploidy.unwrap_or(0) as usize;
+                o
+            })
             .collect();
-        let mut deme_size = vec![0u32; self.demes];
-        for &d in &self.seq_deme {
-            deme_size[d as usize] += 1;
-        }
+        let first = self.mapped.first().and_then(|s| s.ploidy);
+        self.uniform_ploidy = first.filter(|&p| self.mapped.iter().all(|s| s.ploidy == Some(p)));
+        self.identity_layout =
+            self.uniform_ploidy.is_some_and(|p| self.offset.iter().enumerate().all(|(k, &o)| o == usize::from(p) * k));
         let empty = LocusSums::new(m, self.demes, n as usize);
         self.total = Some(empty.clone());
         self.alleles = vec![Call::MISSING; n as usize];
@@ -803,17 +914,47 @@ impl<'a> Run<'a> {
     /// Puts the calls of the mapped samples into `alleles` (one per sequence), checking
     /// ploidies; returns whether every call is phased (haploid calls are).
     fn calls(&mut self, rec: &SiteRecord, unit: &'static str, line: usize) -> Result<bool, Error> {
+        if let Some((p, phased)) = rec.uniform {
+            if self.uniform_ploidy == Some(p) {
+                let from = &rec.uniform_alleles[..self.alleles.len()];
+                if self.identity_layout {
+                    self.alleles.copy_from_slice(from);
+                } else {
+                    let p = usize::from(p);
+                    for (k, &o) in self.offset.iter().enumerate() {
+                        self.alleles[o..o + p].copy_from_slice(&from[p * k..p * k + p]);
+                    }
+                }
+                return Ok(phased);
+            }
+            // The first record, or ploidies that differ: read it call by call.
+            let mut calls = std::mem::take(&mut self.scratch);
+            calls.clear();
+            let pu = usize::from(p);
+            calls.extend(rec.uniform_alleles.chunks(pu).take(self.mapped.len()).map(|a| Call {
+                alleles: [a[0], if pu == 2 { a[1] } else { Call::MISSING }],
+                count: p,
+                phased,
+                lone_missing: false,
+            }));
+            let out = self.calls_of(&calls, unit, line);
+            self.scratch = calls;
+            return out;
+        }
+        self.calls_of(&rec.calls, unit, line)
+    }
+
+    fn calls_of(&mut self, calls: &[Call], unit: &'static str, line: usize) -> Result<bool, Error> {
         let mut phased = true;
-        let mut seq = 0;
         let first = self.shape.is_none();
-        for (s, c) in self.mapped.iter_mut().zip(&rec.calls) {
+        for (k, (s, c)) in self.mapped.iter_mut().zip(calls).enumerate() {
             let ploidy = *s.ploidy.get_or_insert(c.count);
             if c.count != ploidy {
                 if c.lone_missing {
                     if !first {
-                        self.alleles[seq..seq + ploidy as usize].fill(Call::MISSING);
+                        let o = self.offset[k];
+                        self.alleles[o..o + ploidy as usize].fill(Call::MISSING);
                     }
-                    seq += ploidy as usize;
                     continue;
                 }
                 let origin = if s.ploidy_from_map { " (sample map)" } else { " (its first GT)" };
@@ -822,23 +963,24 @@ impl<'a> Run<'a> {
                 return Err(Error::Record { file: self.file.to_string(), unit, line, source: Box::new(source) });
             }
             if !first {
-                self.alleles[seq..seq + ploidy as usize].copy_from_slice(&c.alleles[..ploidy as usize]);
+                let o = self.offset[k];
+                self.alleles[o] = c.alleles[0];
+                if ploidy == 2 {
+                    self.alleles[o + 1] = c.alleles[1];
+                }
             }
-            seq += ploidy as usize;
             phased &= c.phased || ploidy == 1;
         }
         if first {
             self.set_shape()?;
             // Now that the sizes are known, lay out this first record's calls.
-            let mut seq = 0;
-            for (s, c) in self.mapped.iter().zip(&rec.calls) {
-                let p = s.ploidy.unwrap_or(0) as usize;
+            for (k, (s, c)) in self.mapped.iter().zip(calls).enumerate() {
+                let (p, o) = (s.ploidy.unwrap_or(0) as usize, self.offset[k]);
                 if c.count as usize == p {
-                    self.alleles[seq..seq + p].copy_from_slice(&c.alleles[..p]);
+                    self.alleles[o..o + p].copy_from_slice(&c.alleles[..p]);
                 } else {
-                    self.alleles[seq..seq + p].fill(Call::MISSING);
+                    self.alleles[o..o + p].fill(Call::MISSING);
                 }
-                seq += p;
             }
         }
         Ok(phased)
@@ -938,21 +1080,28 @@ impl<'a> Run<'a> {
             }
         };
         let shape = self.shape.as_mut().expect("set by the first record");
-        let n_called = self.alleles.iter().filter(|&&a| a != Call::MISSING).count() as u32;
+        // Derived allele index: 1 (ALT) unless AA = ALT.
+        let derived = u8::from(polarity != Polarity::Ref);
+        // Called and derived sequences per deme, each over its contiguous range.
+        for (d, &(a, b)) in self.deme_range.iter().enumerate() {
+            let range = &self.alleles[a..b];
+            self.m_deme[d] = range.iter().filter(|&&x| x != Call::MISSING).count() as u32;
+            self.c_deme[d] = range.iter().filter(|&&x| x == derived).count() as u32;
+        }
+        let n_called: u32 = self.m_deme.iter().sum();
+        let j: u32 = self.c_deme.iter().sum();
         if n_called < shape.n {
             match self.options.missing {
                 Missing::Refuse => {
-                    let mut seq = 0;
-                    let who = self.mapped.iter().find(|s| {
-                        let p = s.ploidy.unwrap_or(0) as usize;
-                        seq += p;
-                        self.alleles[seq - p..seq].contains(&Call::MISSING)
-                    });
+                    let who =
+                        self.mapped.iter().zip(&self.offset).find(|&(s, &o)| {
+                            self.alleles[o..o + s.ploidy.unwrap_or(0) as usize].contains(&Call::MISSING)
+                        });
                     return Err(Error::MissingData {
                         file: self.file.to_string(),
                         unit,
                         line,
-                        sample: who.map_or_else(String::new, |s| s.name.clone()),
+                        sample: who.map_or_else(String::new, |(s, _)| s.name.clone()),
                         n: shape.n,
                     });
                 }
@@ -965,19 +1114,6 @@ impl<'a> Run<'a> {
                     return Ok(());
                 }
                 Missing::Project(_) => {}
-            }
-        }
-        // Derived allele index: 1 (ALT) unless AA = ALT.
-        let derived = u8::from(polarity != Polarity::Ref);
-        self.m_deme.fill(0);
-        self.c_deme.fill(0);
-        let mut j = 0u32;
-        for (&a, &d) in self.alleles.iter().zip(&self.seq_deme) {
-            if a != Call::MISSING {
-                self.m_deme[d as usize] += 1;
-                let is = u32::from(a == derived);
-                self.c_deme[d as usize] += is;
-                j += is;
             }
         }
         if j == 0 || j == n_called {
@@ -1000,7 +1136,7 @@ impl<'a> Run<'a> {
         if n_called < shape.n {
             sums.spoil_haplotypes(NoHaplotypes::Missing);
         }
-        sums.add_carriers(self.alleles.iter().enumerate().filter(|&(_, &a)| a == derived).map(|(i, _)| i));
+        sums.add_carriers(&self.alleles, derived);
         Ok(())
     }
 

@@ -71,8 +71,14 @@ pub struct SiteRecord {
     pub passes: bool,
     /// `INFO` `AA`.
     pub ancestral: Ancestral,
-    /// One call per mapped sample, in mapped order.
+    /// One call per mapped sample, in mapped order (unless `uniform`).
     pub calls: Vec<Call>,
+    /// Set when every mapped sample has a call of the same ploidy p and none is a lone `.`:
+    /// `(p, every call phased)`; the alleles are then in `uniform_alleles` (p per mapped
+    /// sample, in mapped order) and `calls` is not filled.
+    pub uniform: Option<(u8, bool)>,
+    /// The alleles of a `uniform` record.
+    pub uniform_alleles: Vec<u8>,
 }
 
 impl SiteRecord {
@@ -86,6 +92,8 @@ impl SiteRecord {
             passes: true,
             ancestral: Ancestral::Absent,
             calls: vec![Call::default(); mapped],
+            uniform: None,
+            uniform_alleles: vec![Call::MISSING; 2 * mapped],
         }
     }
 }

@@ -367,7 +367,7 @@ fn gt_of(column: &[u8], gt_key: usize) -> &[u8] {
 }
 
 /// One allele index of the fast path: a digit below `alleles`, or `.`.
-#[inline]
+#[inline(always)]
 fn digit_allele(b: u8, alleles: usize, value: &[u8]) -> Result<u8, FieldError> {
     match b {
         b'.' => Ok(Call::MISSING),
@@ -422,6 +422,9 @@ pub struct TextRecords<R> {
     n_samples: usize,
     /// For each VCF sample, its slot among the mapped samples (`usize::MAX`: not mapped).
     slot: Vec<usize>,
+    /// [`allele_table`] for records with `table_alleles` alleles.
+    table: [u8; 256],
+    table_alleles: usize,
 }
 
 impl<R: BufRead> TextRecords<R> {
@@ -432,7 +435,15 @@ impl<R: BufRead> TextRecords<R> {
         for (k, &i) in mapped.iter().enumerate() {
             slot[i] = k;
         }
-        TextRecords { reader, line: Vec::with_capacity(1 << 12), line_no: header_lines, n_samples, slot }
+        TextRecords {
+            reader,
+            line: Vec::with_capacity(1 << 12),
+            line_no: header_lines,
+            n_samples,
+            slot,
+            table: allele_table(2),
+            table_alleles: 2,
+        }
     }
 
     /// Line number of the last record read.
@@ -469,8 +480,21 @@ impl<R: BufRead> TextRecords<R> {
         if self.n_samples == 0 {
             return Ok(true);
         }
-        let gt_key = genotype_key(cols.get(line, 8)).map_err(ReadError::Record)?;
+        let format = cols.get(line, 8);
+        let gt_key = genotype_key(format).map_err(ReadError::Record)?;
         let alleles = rec.alternates.alleles();
+        let region = &line[cols.samples_start.min(line.len())..];
+        if self.table_alleles != alleles {
+            self.table = allele_table(alleles);
+            self.table_alleles = alleles;
+        }
+        rec.uniform = None;
+        if format == b"GT" {
+            rec.uniform = uniform_calls(region, &self.table, &self.slot, &mut rec.uniform_alleles);
+            if rec.uniform.is_some() {
+                return Ok(true);
+            }
+        }
         let expected = 9 + self.n_samples;
         let mut start = cols.samples_start;
         for i in 0..self.n_samples {
@@ -497,6 +521,60 @@ impl<R: BufRead> TextRecords<R> {
             start = stop + 1;
         }
         Ok(true)
+    }
+}
+
+/// Marks a byte that is not an allele of the fast path.
+const BAD: u8 = 254;
+
+/// The code of every byte as one allele of the fast path: its index for a digit below
+/// `alleles`, [`Call::MISSING`] for `.`, [`BAD`] for anything else.
+fn allele_table(alleles: usize) -> [u8; 256] {
+    let mut t = [BAD; 256];
+    for d in 0..alleles.min(10) {
+        t[usize::from(b'0') + d] = d as u8;
+    }
+    t[usize::from(b'.')] = Call::MISSING;
+    t
+}
+
+/// The common case read in one pass without searching: every sample column is a one-byte
+/// haploid GT (`0`, `1`) or every one a three-byte diploid GT (`0|1`, `1/0`, `./.`), so that
+/// the columns sit at fixed offsets. Writes the alleles of the mapped samples (`p` each, in
+/// mapped order) and returns `(p, all phased)`; returns `None` for anything else (a lone `.`
+/// included, or anything malformed), which the general path then reads and reports.
+fn uniform_calls(region: &[u8], table: &[u8; 256], slot: &[usize], out: &mut [u8]) -> Option<(u8, bool)> {
+    let n = slot.len();
+    if n == 0 {
+        return None;
+    }
+    let code = |b: u8| table[usize::from(b)];
+    let mut ok = true;
+    if region.len() == 4 * n - 1 {
+        // Every column but the last is `a|b\t`; the last has no tab.
+        let mut pipes = 0usize;
+        for (c, &k) in region.chunks(4).zip(slot) {
+            let (a, sep, b) = (code(c[0]), c[1], code(c[2]));
+            ok &= (sep == b'|' || sep == b'/') & (a != BAD) & (b != BAD);
+            pipes += usize::from(sep == b'|' || k == usize::MAX);
+            if k != usize::MAX {
+                out[2 * k] = a;
+                out[2 * k + 1] = b;
+            }
+        }
+        (ok && region.iter().skip(3).step_by(4).all(|&t| t == b'\t')).then_some((2, pipes == n))
+    } else if region.len() == 2 * n - 1 {
+        for (c, &k) in region.chunks(2).zip(slot) {
+            let a = code(c[0]);
+            // A lone `.` may stand for any ploidy: leave it to the general path.
+            ok &= (a != BAD) & (a != Call::MISSING);
+            if k != usize::MAX {
+                out[k] = a;
+            }
+        }
+        (ok && region.iter().skip(1).step_by(2).all(|&t| t == b'\t')).then_some((1, true))
+    } else {
+        None
     }
 }
 
