@@ -380,6 +380,15 @@ fn run(cli: Cli) -> Result<()> {
             };
             if let Some(o) = &observed {
                 null::like(&mut raw, o, &origin).map_err(|e| BadInput(format!("{e:#}")))?;
+                let seqs: u32 = o.design.iter().map(|g| g.2).sum();
+                let loci = o.layout().map_or(String::new(), |l| {
+                    format!(" and its {} loci ({} callable sites in all)", l.len(), l.iter().sum::<u64>())
+                });
+                println!(
+                    "--like {}: simulating the observed design, {seqs} sequences (haploid genomes) in {} deme/time groups{loci}",
+                    o.origin,
+                    o.design.len()
+                );
             }
             let scenario = Scenario::from_raw(raw, &origin)?;
             let count = match (&observed, condition_on_s) {
