@@ -237,6 +237,17 @@ pub fn run(
     }
     let (statistics, mut notes) =
         super::choose_statistics(options.statistics.as_deref(), &super::DEFAULT_STATISTICS, &examples, Some(observed))?;
+    if !observed.design.is_empty() {
+        let seqs: u32 = observed.design.iter().map(|g| g.2).sum();
+        notes.push(format!("every hypothesis simulates the observed design: {seqs} sequences (haploid genomes)"));
+    }
+    if let Some(l) = observed.layout() {
+        notes.push(format!(
+            "every hypothesis simulates the observed {} loci ({} callable sites in all) as its loci",
+            l.len(),
+            l.iter().sum::<u64>()
+        ));
+    }
     let obs: Vec<f64> = statistics.iter().map(|s| observed.value(s).expect("checked by choose_statistics")).collect();
     let seeds: Vec<u64> =
         hypotheses.iter().enumerate().map(|(i, h)| super::hypothesis_seed(h.seed, i as u64)).collect();

@@ -388,6 +388,13 @@ pub fn run(
         return Err(Error::Options("--replicates and --power-replicates must be at least 1".into()));
     }
     let mut notes = Vec::new();
+    if let Some(l) = &o.layout {
+        notes.push(format!(
+            "every design simulates the {} observed loci of --like ({} callable sites in all)",
+            l.len(),
+            l.iter().sum::<u64>()
+        ));
+    }
     if o.level < 1.0 / (o.replicates as f64 + 1.0) * 2.0 {
         notes.push(format!(
             "with B = {} null replicates the smallest two-sided p-value is {:.4} > level {}: no statistic can reject; raise --replicates",
