@@ -265,10 +265,12 @@ pub fn simulate_replicate(
         } else {
             format!("replicate {replicate}")
         };
-        let (mut out, mutations) = match scenario.recombination() {
+        // Each locus has its own length when the scenario lists them.
+        let model = scenario.locus_mutation(locus);
+        let (mut out, mutations) = match scenario.locus_recombination(locus) {
             Some(config) => {
-                let arg = ArgSimulator::new().simulate(scenario, config, &mut rng);
-                let mutations = match scenario.mutation() {
+                let arg = ArgSimulator::new().simulate(scenario, &config, &mut rng);
+                let mutations = match &model {
                     Some(m) => Some(crate::mutation::place_along(&arg, m, demes.clone(), &mut rng)?),
                     None => None,
                 };
@@ -282,7 +284,7 @@ pub fn simulate_replicate(
                     Some(model) => model.simulate(&mut rng),
                     None => sim.simulate(scenario, &mut rng),
                 };
-                let mutations = match scenario.mutation() {
+                let mutations = match &model {
                     Some(m) => Some(crate::mutation::place(&g, m, demes.clone(), &mut rng)?),
                     None => None,
                 };

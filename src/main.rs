@@ -60,13 +60,22 @@ enum Command {
         #[arg(long)]
         json: bool,
     },
-    /// Summary statistics of observed data (VCF of biallelic SNPs) with the simulate columns
+    /// Summary statistics of observed data (VCF/BCF of biallelic SNPs), per locus and genome-wide, with the simulate columns
     Observe {
-        /// VCF file, plain or bgzip-compressed (.vcf.gz)
+        /// VCF file (plain, gzip or bgzip) or BCF
         data: PathBuf,
-        /// Sample map (TSV with columns sample, deme, optional generations_ago, ploidy)
+        /// Sample map (TSV with columns sample, deme, optional generations_ago, ploidy); a sample is a plant
         #[arg(long)]
         samples: PathBuf,
+        /// Cut each contig into windows of BP bases, each a locus (default: each contig is one locus)
+        #[arg(long, value_name = "BP", conflicts_with = "regions")]
+        windows: Option<u64>,
+        /// Loci from a BED file (0-based, half-open; regions may not overlap)
+        #[arg(long, value_name = "FILE.bed")]
+        regions: Option<PathBuf>,
+        /// Callable sites from a BED file: records outside are skipped, per-site values use the callable length
+        #[arg(long, value_name = "FILE.bed")]
+        mask: Option<PathBuf>,
         /// Output directory for observed.json, observed.tsv, sfs.tsv
         #[arg(long, default_value = "seedline-observed")]
         out: PathBuf,
@@ -199,6 +208,9 @@ enum Command {
         /// Statistics to test, comma-separated (sfs_chi2 is always added)
         #[arg(long, value_delimiter = ',')]
         statistics: Option<Vec<String>>,
+        /// Simulate the loci of an `observe` result (their callable lengths) in every design
+        #[arg(long, value_name = "OBSERVED.json")]
+        like: Option<PathBuf>,
         /// Worker threads (0 = one per core)
         #[arg(long, default_value_t = 0)]
         threads: usize,
@@ -277,6 +289,7 @@ fn main() -> ExitCode {
                     || c.is::<seedline::observed::Error>()
                     || c.is::<seedline::approx::ApproxError>()
                     || c.is::<seedline::null::SettingsMismatch>()
+                    || c.is::<seedline::null::LayoutMismatch>()
                     || c.downcast_ref::<seedline::abc::Error>().is_some_and(|a| a.is_bad_input())
             });
             ExitCode::from(if bad_input { 2 } else { 1 })
@@ -322,14 +335,15 @@ fn run(cli: Cli) -> Result<()> {
             }
             Ok(())
         }
-        Command::Observe { data, samples, out, project, drop_missing } => {
+        Command::Observe { data, samples, windows, regions, mask, out, project, drop_missing } => {
             use seedline::observed::{self, Missing};
             let missing = match (project, drop_missing) {
                 (Some(m), _) => Missing::Project(m),
                 (None, true) => Missing::Drop,
                 (None, false) => Missing::Refuse,
             };
-            let obs = observed::observe_files(&data, &samples, missing)?;
+            let options = observed::Options::from_files(missing, windows, regions.as_deref(), mask.as_deref())?;
+            let obs = observed::observe_files_with(&data, &samples, &options)?;
             observed::write_outputs(&obs, &out).with_context(|| format!("writing into {}", out.display()))?;
             let wrote = observed::OBSERVE_FILES.map(|f| out.join(f).display().to_string()).join(", ");
             // Through write_all so that a closed pipe is an error, not a panic.
@@ -366,6 +380,15 @@ fn run(cli: Cli) -> Result<()> {
             };
             if let Some(o) = &observed {
                 null::like(&mut raw, o, &origin).map_err(|e| BadInput(format!("{e:#}")))?;
+                let seqs: u32 = o.design.iter().map(|g| g.2).sum();
+                let loci = o.layout().map_or(String::new(), |l| {
+                    format!(" and its {} loci ({} callable sites in all)", l.len(), l.iter().sum::<u64>())
+                });
+                println!(
+                    "--like {}: simulating the observed design, {seqs} sequences (haploid genomes) in {} deme/time groups{loci}",
+                    o.origin,
+                    o.design.len()
+                );
             }
             let scenario = Scenario::from_raw(raw, &origin)?;
             let count = match (&observed, condition_on_s) {
@@ -408,8 +431,13 @@ fn run(cli: Cli) -> Result<()> {
             let report = nl::test(&obs, &table)?;
             nl::write_test(&report, &table, &out)?;
             print!("{}", nl::render_test(&report));
+            let loci = if report.loci.is_empty() {
+                String::new()
+            } else {
+                format!(", {}", out.join(nl::LOCI_TEST_FILE).display())
+            };
             println!(
-                "wrote {}, {}, {}",
+                "wrote {}, {}{loci}, {}",
                 out.join("test.tsv").display(),
                 out.join("test.json").display(),
                 out.join("figures").display()
@@ -445,10 +473,26 @@ fn run(cli: Cli) -> Result<()> {
             replicates,
             power_replicates,
             statistics,
+            like,
             threads,
             out,
         } => {
             use seedline::abc::{self, design};
+            let layout = match &like {
+                Some(p) => {
+                    let o = abc::load_observed(p)?;
+                    let l = o.layout();
+                    if l.is_none() {
+                        return Err(BadInput(format!(
+                            "--like {}: the file records no loci (write it with `seedline observe`)",
+                            p.display()
+                        ))
+                        .into());
+                    }
+                    l
+                }
+                None => None,
+            };
             let names = abc::unique_names(&[null.display().to_string(), alternative.display().to_string()]);
             let h0 = abc::load_hypothesis(&null, &names[0])?;
             let h1 = abc::load_hypothesis(&alternative, &names[1])?;
@@ -456,7 +500,8 @@ fn run(cli: Cli) -> Result<()> {
             let text = std::fs::read_to_string(&designs)
                 .map_err(|e| BadInput(format!("cannot read designs file {origin}: {e}")))?;
             let file = design::parse_designs(&text, &origin)?;
-            let opts = design::DesignOptions { level, target, replicates, power_replicates, statistics, threads };
+            let opts =
+                design::DesignOptions { level, target, replicates, power_replicates, statistics, threads, layout };
             let bar = progress_bar((replicates + power_replicates) * file.designs.len() as u64);
             let result = design::run(&h0, &h1, &file, opts, &|| bar.inc(1))?;
             bar.finish_and_clear();

@@ -37,6 +37,10 @@ impl MutationModel {
     pub fn sites(&self) -> u64 {
         self.sites
     }
+    /// The same rates on a locus of `sites` sites.
+    pub fn with_sites(&self, sites: u64) -> Self {
+        MutationModel { sites, ..*self }
+    }
     /// Rate per site in a generation of reproduction.
     pub fn reproduction_rate(&self) -> f64 {
         self.reproduction_rate

@@ -11,6 +11,11 @@
 //! settings. Replicate i always uses the stream of (seed, i): `--shard I/K` runs the
 //! replicates with i mod K == I, and [`merge`] of the K shards gives the same `null.tsv`,
 //! byte for byte, as the merge of one unsharded run.
+//!
+//! With several loci each chunk also has `loci_000000.tsv`, ... (the columns of `loci.tsv`
+//! of `simulate`, one row per locus of each replicate), written before its chunk so that a
+//! complete chunk always has its per-locus file; [`merge`] joins them into `loci.tsv`.
+//! [`test`] reads them as a stream to give per-locus p-values ([`LocusTest`]).
 
 use crate::batch::{self, BatchConfig, Keep};
 use crate::mutation::Count;
@@ -95,6 +100,10 @@ fn chunk_name(c: u64) -> String {
     format!("chunk_{c:06}.tsv")
 }
 
+fn loci_chunk_name(c: u64) -> String {
+    format!("loci_{c:06}.tsv")
+}
+
 /// Runs (or resumes) a null run of `scenario` in `dir`. `progress(done)` is called with the
 /// number of replicates of the shard completed so far.
 pub fn run(
@@ -145,7 +154,7 @@ pub fn run(
     // Temporary files of an interrupted run are incomplete by construction.
     for e in fs::read_dir(dir)? {
         let name = e?.file_name().to_string_lossy().into_owned();
-        if name.starts_with(".chunk_") && name.ends_with(".tmp") {
+        if (name.starts_with(".chunk_") || name.starts_with(".loci_")) && name.ends_with(".tmp") {
             let _ = fs::remove_file(dir.join(name));
         }
     }
@@ -171,6 +180,15 @@ pub fn run(
         }
         let mut f = StreamFile::create(&path)?;
         writeln!(f.out, "{}", columns.join("\t"))?;
+        let loci_path = dir.join(loci_chunk_name(c as u64));
+        let mut lf = match scenario.loci() > 1 {
+            true => {
+                let mut lf = StreamFile::create(&loci_path)?;
+                writeln!(lf.out, "{}", crate::report::LOCI_COLUMNS.join("\t"))?;
+                Some(lf)
+            }
+            false => None,
+        };
         batch::run(
             scenario,
             chunk,
@@ -182,6 +200,13 @@ pub fn run(
             },
             |rep, loci| {
                 let loci = loci?;
+                if let Some(lf) = lf.as_mut() {
+                    for (j, l) in loci.iter().enumerate() {
+                        let row = crate::report::locus_values(rep, j, l);
+                        let fields: Vec<String> = row.iter().map(|x| crate::report::tsv_value(*x)).collect();
+                        writeln!(lf.out, "{}", fields.join("\t"))?;
+                    }
+                }
                 let mut values = replicate_values(rep, &loci, n_demes);
                 let mut xi = vec![0u64; n.saturating_sub(1)];
                 for st in loci.iter().filter_map(|l| l.stats.as_ref()) {
@@ -195,6 +220,10 @@ pub fn run(
                 Ok(())
             },
         )?;
+        // The per-locus file first: a chunk under its final name always has its loci.
+        if let Some(lf) = lf {
+            lf.finish().with_context(|| format!("writing {}", loci_path.display()))?;
+        }
         f.finish().with_context(|| format!("writing {}", path.display()))?;
         report.written_chunks += 1;
     }
@@ -217,8 +246,8 @@ fn replicate_with(
             let mut rng = batch::locus_rng(key, rep, 0);
             let g = sim.simulate(sc, &mut rng);
             let demes: Vec<u32> = sc.samples().iter().map(|x| x.deme as u32).collect();
-            let model = sc.mutation().expect("checked by run");
-            let m = crate::mutation::place_with(&g, model, Count::Fixed(s), demes, &mut rng)?;
+            let model = sc.locus_mutation(0).expect("checked by run");
+            let m = crate::mutation::place_with(&g, &model, Count::Fixed(s), demes, &mut rng)?;
             let stats = crate::stats::SampleStats::from_haplotypes(&m.haplotypes);
             Ok(vec![batch::LocusOutcome::of_genealogy(&g, Some(stats))])
         }
@@ -235,6 +264,11 @@ pub struct NullTable {
     pub rows: Vec<(u64, Vec<String>)>,
     /// The manifest of the (first) run.
     pub manifest: Manifest,
+    /// Files of per-locus rows (`loci.tsv` of a merged run, else `loci_*.tsv` of its
+    /// complete chunks); empty with one locus.
+    pub loci_files: Vec<PathBuf>,
+    /// The run directory.
+    pub origin: String,
 }
 
 impl NullTable {
@@ -280,15 +314,23 @@ pub fn load(dir: &Path) -> Result<NullTable> {
     let manifest = manifest_of(dir)?;
     let mut rows = Vec::new();
     let merged = dir.join("null.tsv");
+    let mut loci_files = Vec::new();
     if merged.exists() {
         read_rows(&merged, &manifest.columns, &mut rows)?;
+        if dir.join("loci.tsv").exists() {
+            loci_files.push(dir.join("loci.tsv"));
+        }
     } else {
         for p in chunk_files(dir)? {
             read_rows(&p, &manifest.columns, &mut rows)?;
+            let name = p.file_name().map(|n| n.to_string_lossy().replacen("chunk_", "loci_", 1)).unwrap_or_default();
+            if dir.join(&name).exists() {
+                loci_files.push(dir.join(name));
+            }
         }
     }
     rows.sort_by_key(|r| r.0);
-    Ok(NullTable { columns: manifest.columns.clone(), rows, manifest })
+    Ok(NullTable { columns: manifest.columns.clone(), rows, manifest, loci_files, origin: dir.display().to_string() })
 }
 
 fn chunk_files(dir: &Path) -> Result<Vec<PathBuf>> {
@@ -342,6 +384,30 @@ pub fn merge(dirs: &[PathBuf], out: &Path) -> Result<u64> {
         text.push('\n');
     }
     write_atomic(&out.join("null.tsv"), text.as_bytes())?;
+    let mut loci_rows: Vec<(u64, u64, String)> = Vec::new();
+    for d in dirs {
+        for p in load(d)?.loci_files {
+            let text = fs::read_to_string(&p).with_context(|| format!("reading {}", p.display()))?;
+            for (i, line) in text.lines().enumerate().skip(1) {
+                let mut f = line.split('\t');
+                let key = |x: Option<&str>| x.and_then(|v| v.parse::<u64>().ok());
+                let (Some(rep), Some(locus)) = (key(f.next()), key(f.next())) else {
+                    bail!("{}, line {}: replicate and locus must be whole numbers", p.display(), i + 1);
+                };
+                loci_rows.push((rep, locus, line.to_string()));
+            }
+        }
+    }
+    if !loci_rows.is_empty() {
+        loci_rows.sort_by_key(|r| (r.0, r.1));
+        let mut text = crate::report::LOCI_COLUMNS.join("\t");
+        text.push('\n');
+        for (_, _, r) in &loci_rows {
+            text.push_str(r);
+            text.push('\n');
+        }
+        write_atomic(&out.join("loci.tsv"), text.as_bytes())?;
+    }
     let merged = Manifest { shard: 0, shards: 1, chunk: first.replicates.max(1), ..first };
     write_atomic(&out.join("null.json"), serde_json::to_string_pretty(&merged)?.as_bytes())?;
     Ok(have)
@@ -351,7 +417,10 @@ pub fn merge(dirs: &[PathBuf], out: &Path) -> Result<u64> {
 pub use crate::abc::{ObservedData, load_observed};
 
 /// Replaces the scenario's samples by the observed sampling design (`--like`): one sample
-/// group per (deme, time) with the observed number of sequences.
+/// group per (deme, time) with the observed number of sequences; and, when the observed
+/// file records loci, its loci by the observed ones: `loci` becomes the list of their
+/// callable lengths (so `mutation.sites` is dropped). Recombination keeps the scenario's rate
+/// per adjacent pair of sites within each locus.
 pub fn like(raw: &mut crate::scenario::RawScenario, observed: &ObservedData, origin: &str) -> Result<()> {
     ensure!(!observed.design.is_empty(), "{origin}: the observed data have no sampling design");
     let loc = serde_saphyr::Location::UNKNOWN;
@@ -373,6 +442,17 @@ pub fn like(raw: &mut crate::scenario::RawScenario, observed: &ObservedData, ori
             )
         })
         .collect();
+    if let Some(lengths) = observed.layout() {
+        // The same loci: their callable lengths become the per-locus site counts.
+        raw.loci = Some(serde_saphyr::Spanned::new(
+            crate::scenario::raw::RawLoci::Lengths(lengths.iter().map(|&x| x as f64).collect()),
+            loc,
+            loc,
+        ));
+        if let Some(m) = raw.mutation.as_mut() {
+            m.value.sites = None;
+        }
+    }
     Ok(())
 }
 
@@ -439,11 +519,166 @@ pub fn fold(xi: &[f64]) -> Vec<f64> {
     (1..=n / 2).map(|i| if 2 * i == n { xi[i - 1] } else { xi[i - 1] + xi[n - i - 1] }).collect()
 }
 
+/// One statistic of one locus against the same locus of every null replicate.
+#[derive(Debug, Clone, Serialize)]
+pub struct LocusTest {
+    /// Locus number, from 1, in the order of `observed.json`.
+    pub locus: usize,
+    /// Contig.
+    pub contig: String,
+    /// 0-based start.
+    pub start: u64,
+    /// End (exclusive).
+    pub end: u64,
+    /// Callable sites.
+    pub callable_sites: u64,
+    /// Statistic name.
+    pub statistic: String,
+    /// Observed value at the locus.
+    pub observed: Option<f64>,
+    /// Null replicates where the statistic is defined at this locus.
+    pub null_replicates: u64,
+    /// Null mean at this locus.
+    pub null_mean: Option<f64>,
+    /// Two-sided empirical p-value ([`p_two_sided`]).
+    pub p_value: Option<f64>,
+    /// Benjamini–Hochberg adjusted p-value over the loci, for this statistic.
+    pub q_value: Option<f64>,
+}
+
+/// Per-locus statistics tested locus by locus (the columns of `loci.tsv` that `observe`
+/// also writes per locus).
+pub const LOCUS_STATISTICS: [&str; 6] = ["segregating_sites", "pi", "theta_w", "tajima_d", "fay_wu_h", "haplotypes"];
+
+/// Benjamini–Hochberg adjusted p-values ("q-values") of one family of tests:
+///
+/// ```text
+/// q_(i) = min over j >= i of  min(1, m p_(j) / j)
+/// ```
+/// with p_(1) <= ... <= p_(m) the m defined p-values (`None` entries are left out and stay
+/// `None`). Rejecting every test with q <= α keeps the false discovery rate at or below α
+/// for independent tests. Source: Benjamini & Hochberg (1995), J. R. Stat. Soc. B 57:289.
+pub fn benjamini_hochberg(p: &[Option<f64>]) -> Vec<Option<f64>> {
+    let mut idx: Vec<usize> = (0..p.len()).filter(|&i| p[i].is_some()).collect();
+    idx.sort_by(|&a, &b| p[a].unwrap_or(1.0).total_cmp(&p[b].unwrap_or(1.0)).then(a.cmp(&b)));
+    let m = idx.len() as f64;
+    let mut q = vec![None; p.len()];
+    let mut running = 1.0f64;
+    for (rank, &i) in idx.iter().enumerate().rev() {
+        let v = (m * p[i].unwrap_or(1.0) / (rank + 1) as f64).min(1.0);
+        running = running.min(v);
+        q[i] = Some(running);
+    }
+    q
+}
+
+/// The observed loci are not the null's loci.
+#[derive(Debug, thiserror::Error)]
+#[error(
+    "{observed}: the data have {observed_loci} loci but the null in {null} simulates {null_loci}: make the null with `null --like {observed}` so that it simulates the same loci"
+)]
+pub struct LayoutMismatch {
+    /// Observed file.
+    pub observed: String,
+    /// Null directory.
+    pub null: String,
+    /// Loci of the data.
+    pub observed_loci: usize,
+    /// Loci of the null.
+    pub null_loci: usize,
+}
+
+/// The per-locus site counts of the scenario in a manifest: `loci` as a list, or `loci`
+/// copies of `mutation.sites`.
+fn null_layout(m: &Manifest) -> Vec<u64> {
+    let sc = &m.scenario;
+    match sc.get("loci") {
+        Some(serde_json::Value::Array(v)) => v.iter().map(|x| x.as_f64().unwrap_or(0.0) as u64).collect(),
+        other => {
+            let k = other.and_then(serde_json::Value::as_f64).unwrap_or(1.0) as usize;
+            let sites = sc.get("mutation").and_then(|x| x.get("sites")).and_then(serde_json::Value::as_f64);
+            vec![sites.unwrap_or(0.0) as u64; k]
+        }
+    }
+}
+
+/// Each observed locus against the same locus of the null replicates, streaming the null's
+/// per-locus files; q-values by [`benjamini_hochberg`] over the loci, per statistic.
+fn locus_tests(observed: &ObservedData, null: &NullTable) -> Result<Vec<LocusTest>> {
+    let k = observed.loci.len();
+    let stats: Vec<(usize, usize, &str)> = LOCUS_STATISTICS
+        .iter()
+        .filter_map(|name| {
+            let o = observed.locus_columns.iter().position(|c| c == name)?;
+            let n = crate::report::LOCI_COLUMNS.iter().position(|c| c == name)?;
+            Some((o, n, *name))
+        })
+        .collect();
+    // Per (locus, statistic): #null <= obs, #null >= obs, defined, sum.
+    let mut acc = vec![(0u64, 0u64, 0u64, 0.0f64); k * stats.len()];
+    for p in &null.loci_files {
+        let text = fs::read_to_string(p).with_context(|| format!("reading {}", p.display()))?;
+        for (i, line) in text.lines().enumerate().skip(1) {
+            let f: Vec<&str> = line.split('\t').collect();
+            ensure!(
+                f.len() == crate::report::LOCI_COLUMNS.len(),
+                "{}, line {}: {} fields, expected {}",
+                p.display(),
+                i + 1,
+                f.len(),
+                crate::report::LOCI_COLUMNS.len()
+            );
+            let locus: usize =
+                f[1].parse().with_context(|| format!("{}, line {}: column locus", p.display(), i + 1))?;
+            ensure!((1..=k).contains(&locus), "{}, line {}: locus {locus} outside 1..={k}", p.display(), i + 1);
+            for (s, &(o, n, _)) in stats.iter().enumerate() {
+                let (Some(obs), Ok(v)) = (observed.loci[locus - 1].values[o], f[n].parse::<f64>()) else { continue };
+                let a = &mut acc[(locus - 1) * stats.len() + s];
+                a.0 += u64::from(v <= obs);
+                a.1 += u64::from(v >= obs);
+                a.2 += 1;
+                a.3 += v;
+            }
+        }
+    }
+    let mut out = Vec::with_capacity(k * stats.len());
+    for (s, &(o, _, name)) in stats.iter().enumerate() {
+        let first = out.len();
+        for (l, locus) in observed.loci.iter().enumerate() {
+            let (le, ge, b, sum) = acc[l * stats.len() + s];
+            let bf = b as f64;
+            let p = locus.values[o]
+                .filter(|_| b > 0)
+                .map(|_| (2.0 * ((le as f64 + 1.0) / (bf + 1.0)).min((ge as f64 + 1.0) / (bf + 1.0))).min(1.0));
+            out.push(LocusTest {
+                locus: l + 1,
+                contig: locus.contig.clone(),
+                start: locus.start,
+                end: locus.end,
+                callable_sites: locus.callable_sites,
+                statistic: name.to_string(),
+                observed: locus.values[o],
+                null_replicates: b,
+                null_mean: (b > 0).then(|| sum / bf),
+                p_value: p,
+                q_value: None,
+            });
+        }
+        let ps: Vec<Option<f64>> = out[first..].iter().map(|t| t.p_value).collect();
+        for (t, q) in out[first..].iter_mut().zip(benjamini_hochberg(&ps)) {
+            t.q_value = q;
+        }
+    }
+    Ok(out)
+}
+
 /// The observed data against a null distribution: every statistic, and the SFS fit.
 #[derive(Debug, Clone, Serialize)]
 pub struct TestReport {
     /// One line per statistic present in both.
     pub statistics: Vec<StatTest>,
+    /// Per-locus tests, with several loci in both the data and the null.
+    pub loci: Vec<LocusTest>,
     /// SFS goodness of fit: which spectrum (`unfolded`/`folded`), G observed, p-value.
     pub sfs_fit: Option<(String, f64, f64)>,
     /// Null replicates.
@@ -455,6 +690,29 @@ pub struct TestReport {
 /// Tests the observed statistics against the null table.
 pub fn test(observed: &ObservedData, null: &NullTable) -> Result<TestReport> {
     let mut notes = Vec::new();
+    let null_lengths = null_layout(&null.manifest);
+    let mut loci = Vec::new();
+    if let Some(lengths) = observed.layout() {
+        if lengths.len() != null_lengths.len() {
+            return Err(LayoutMismatch {
+                observed: observed.origin.clone(),
+                null: null.origin.clone(),
+                observed_loci: lengths.len(),
+                null_loci: null_lengths.len(),
+            }
+            .into());
+        }
+        let differ = lengths.iter().zip(&null_lengths).filter(|(a, b)| a != b).count();
+        if differ > 0 {
+            notes.push(format!(
+                "{differ} of {} loci have another callable length in the data than sites in the null: statistics that grow with length are not comparable; make the null with `null --like`",
+                lengths.len()
+            ));
+        }
+        if lengths.len() > 1 {
+            loci = locus_tests(observed, null)?;
+        }
+    }
     let mut statistics = Vec::new();
     for (name, obs) in observed.names.iter().zip(&observed.values) {
         let Some(col) = null.column(name) else {
@@ -504,7 +762,7 @@ pub fn test(observed: &ObservedData, null: &NullTable) -> Result<TestReport> {
             sfs_fit = Some((kind.to_string(), g_obs, p_upper(&g_null, g_obs)));
         }
     }
-    Ok(TestReport { statistics, sfs_fit, replicates: b, notes })
+    Ok(TestReport { statistics, loci, sfs_fit, replicates: b, notes })
 }
 
 /// Renders the test table for the terminal.
@@ -535,14 +793,48 @@ pub fn render_test(r: &TestReport) -> String {
             fmt_num(*p)
         ));
     }
+    if !r.loci.is_empty() {
+        let k = r.loci.iter().map(|t| t.locus).max().unwrap_or(0);
+        s.push_str(&format!(
+            "per-locus scan over {k} loci (Benjamini-Hochberg q-values per statistic, in test_loci.tsv):\n"
+        ));
+        for name in LOCUS_STATISTICS {
+            let rows: Vec<&LocusTest> = r.loci.iter().filter(|t| t.statistic == name).collect();
+            if rows.is_empty() {
+                continue;
+            }
+            let hits = |a: f64| rows.iter().filter(|t| t.q_value.is_some_and(|q| q <= a)).count();
+            let best = rows
+                .iter()
+                .filter(|t| t.q_value.is_some())
+                .min_by(|a, b| a.q_value.unwrap_or(1.0).total_cmp(&b.q_value.unwrap_or(1.0)));
+            s.push_str(&format!(
+                "  {:<20} q <= 0.05: {:>4} loci   q <= 0.10: {:>4} loci{}\n",
+                name,
+                hits(0.05),
+                hits(0.10),
+                best.map_or(String::new(), |t| format!(
+                    "   smallest q {} at {}:{}-{}",
+                    fmt_num(t.q_value.unwrap_or(1.0)),
+                    t.contig,
+                    t.start,
+                    t.end
+                ))
+            ));
+        }
+    }
     for n in &r.notes {
         s.push_str(&format!("note: {n}\n"));
     }
-    s.push_str("A p-value measures surprise under this one null model (neutral, haploid, one non-recombining locus unless stated); it is not the probability that the hypothesis is true.\n");
+    s.push_str("A p-value measures surprise under this one null model (its scenario: demes, dormancy, loci and recombination as written there); it is not the probability that the hypothesis is true.\n");
     s
 }
 
-/// Writes `test.tsv`, `test.json` and one SVG histogram per statistic into `dir`.
+/// The per-locus table written by [`write_test`] with several loci.
+pub const LOCI_TEST_FILE: &str = "test_loci.tsv";
+
+/// Writes `test.tsv`, `test.json`, with several loci `test_loci.tsv`, and one SVG histogram
+/// per statistic into `dir`.
 pub fn write_test(r: &TestReport, null: &NullTable, dir: &Path) -> Result<()> {
     fs::create_dir_all(dir.join("figures"))?;
     let mut tsv =
@@ -568,6 +860,29 @@ pub fn write_test(r: &TestReport, null: &NullTable, dir: &Path) -> Result<()> {
         }
     }
     write_atomic(&dir.join("test.tsv"), tsv.as_bytes())?;
+    if !r.loci.is_empty() {
+        let v = crate::report::tsv_value;
+        let mut text = String::from(
+            "locus\tcontig\tstart\tend\tcallable_sites\tstatistic\tobserved\tnull_replicates\tnull_mean\tp_value\tq_value\n",
+        );
+        for t in &r.loci {
+            text.push_str(&format!(
+                "{}\t{}\t{}\t{}\t{}\t{}\t{}\t{}\t{}\t{}\t{}\n",
+                t.locus,
+                t.contig,
+                t.start,
+                t.end,
+                t.callable_sites,
+                t.statistic,
+                v(t.observed),
+                t.null_replicates,
+                v(t.null_mean),
+                v(t.p_value),
+                v(t.q_value)
+            ));
+        }
+        write_atomic(&dir.join(LOCI_TEST_FILE), text.as_bytes())?;
+    }
     write_atomic(&dir.join("test.json"), serde_json::to_string_pretty(r)?.as_bytes())?;
     Ok(())
 }

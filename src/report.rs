@@ -308,7 +308,7 @@ pub struct SimulateOptions {
 ///
 /// Always `replicate tmrca roots total_length jumps`; with a mutation model the statistic
 /// columns of [`crate::stats::stat_columns`]; with several loci also the mean and variance
-/// across loci of π, S and Tajima's D. With several loci `tmrca` and `total_length` are means
+/// across loci of π, S, Tajima's D, θ_W and Fay & Wu's H ([`crate::stats::LOCUS_SPREAD`]). With several loci `tmrca` and `total_length` are means
 /// over loci (`tmrca` empty if any locus is a forest), `roots` the largest number of roots
 /// and `jumps` the sum. With recombination `breakpoints` comes last (summed over loci), and
 /// `tmrca`, `total_length` of a locus are means over its local trees weighted by their
@@ -319,28 +319,13 @@ pub fn replicate_columns(scenario: &crate::scenario::Scenario) -> Vec<String> {
         let names: Vec<&str> = scenario.demes().iter().map(|d| d.name()).collect();
         cols.extend(crate::stats::stat_columns(&names));
         if scenario.loci() > 1 {
-            for c in LOCUS_SPREAD {
-                cols.push(format!("{c}_locus_mean"));
-                cols.push(format!("{c}_locus_var"));
-            }
+            cols.extend(crate::stats::locus_spread_columns());
         }
     }
     if scenario.recombination().is_some() {
         cols.push("breakpoints".to_string());
     }
     cols
-}
-
-const LOCUS_SPREAD: [&str; 3] = ["pi", "segregating_sites", "tajima_d"];
-
-fn mean_var(xs: &[f64]) -> (Option<f64>, Option<f64>) {
-    if xs.is_empty() {
-        return (None, None);
-    }
-    let n = xs.len() as f64;
-    let m = xs.iter().sum::<f64>() / n;
-    let v = (xs.len() > 1).then(|| xs.iter().map(|x| (x - m).powi(2)).sum::<f64>() / (n - 1.0));
-    (Some(m), v)
 }
 
 /// The values of [`replicate_columns`] for one replicate's loci.
@@ -358,11 +343,10 @@ pub fn replicate_values(replicate: u64, loci: &[crate::batch::LocusOutcome], n_d
     if !stats.is_empty() {
         v.extend(crate::stats::combined_column_values(&stats, n_demes));
         if loci.len() > 1 {
-            type Pick = fn(&crate::stats::SampleStats) -> Option<f64>;
-            let pick: [Pick; 3] = [|s| s.theta_pi, |s| Some(s.segregating_sites as f64), |s| s.tajima_d];
-            for f in pick {
-                let xs: Vec<f64> = stats.iter().filter_map(f).collect();
-                let (m, var) = mean_var(&xs);
+            let per_locus: Vec<[Option<f64>; 5]> = stats.iter().map(crate::stats::locus_spread_values).collect();
+            for k in 0..crate::stats::LOCUS_SPREAD.len() {
+                let xs: Vec<f64> = per_locus.iter().filter_map(|l| l[k]).collect();
+                let (m, var) = crate::stats::mean_var(&xs);
                 v.push(m);
                 v.push(var);
             }
@@ -372,6 +356,40 @@ pub fn replicate_values(replicate: u64, loci: &[crate::batch::LocusOutcome], n_d
         v.push(Some(loci.iter().filter_map(|l| l.breakpoints).sum::<u64>() as f64));
     }
     v
+}
+
+/// Columns of `loci.tsv` (and of the per-locus files of a null run): one row per locus of
+/// each replicate, `locus` counted from 1.
+pub const LOCI_COLUMNS: [&str; 11] = [
+    "replicate",
+    "locus",
+    "tmrca",
+    "roots",
+    "total_length",
+    "segregating_sites",
+    "pi",
+    "tajima_d",
+    "theta_w",
+    "fay_wu_h",
+    "haplotypes",
+];
+
+/// The values of [`LOCI_COLUMNS`] for locus `j` (0-based) of replicate `rep`.
+pub fn locus_values(rep: u64, j: usize, l: &crate::batch::LocusOutcome) -> [Option<f64>; 11] {
+    let st = l.stats.as_ref();
+    [
+        Some(rep as f64),
+        Some((j + 1) as f64),
+        l.tmrca,
+        Some(l.roots as f64),
+        Some(l.total_length),
+        st.map(|s| s.segregating_sites as f64),
+        st.and_then(|s| s.theta_pi),
+        st.and_then(|s| s.tajima_d),
+        st.and_then(|s| s.theta_w),
+        st.and_then(|s| s.fay_wu_h),
+        st.map(|s| s.distinct_haplotypes as f64),
+    ]
 }
 
 /// A TSV cell: empty for `None`, integers without a fraction.
@@ -422,7 +440,7 @@ pub fn simulate_to_dir(
     };
     let mut loci_file = if options.loci_table {
         let mut f = StreamFile::create(&dir.join("loci.tsv"))?;
-        writeln!(f.out, "replicate\tlocus\ttmrca\troots\ttotal_length\tsegregating_sites\tpi\ttajima_d")?;
+        writeln!(f.out, "{}", LOCI_COLUMNS.join("\t"))?;
         Some(f)
     } else {
         None
@@ -462,17 +480,7 @@ pub fn simulate_to_dir(
                     trees.out.write_all(t.as_bytes())?;
                 }
                 if let Some(f) = loci_file.as_mut() {
-                    let st = l.stats.as_ref();
-                    let row = [
-                        Some(rep as f64),
-                        Some((j + 1) as f64),
-                        l.tmrca,
-                        Some(l.roots as f64),
-                        Some(l.total_length),
-                        st.map(|s| s.segregating_sites as f64),
-                        st.and_then(|s| s.theta_pi),
-                        st.and_then(|s| s.tajima_d),
-                    ];
+                    let row = locus_values(rep, j, l);
                     writeln!(f.out, "{}", row.iter().map(|x| tsv_value(*x)).collect::<Vec<_>>().join("\t"))?;
                 }
             }
@@ -496,7 +504,8 @@ pub fn simulate_to_dir(
                 let mut buf = Vec::new();
                 let comment =
                     format!("seedline {} replicate {rep} seed {}", env!("CARGO_PKG_VERSION"), scenario.seed());
-                crate::vcf_export::write(&mut buf, scenario.samples(), &ms, options.diploid, &comment)?;
+                let lengths: Vec<u64> = (0..loci).filter_map(|l| scenario.locus_sites(l)).collect();
+                crate::vcf_export::write(&mut buf, scenario.samples(), &ms, &lengths, options.diploid, &comment)?;
                 let p = vcf_dir.join(format!("replicate_{rep}.vcf"));
                 write_atomic(&p, &buf).with_context(|| format!("writing {}", p.display()))?;
             }

@@ -894,6 +894,32 @@ impl Haplotypes {
     }
 }
 
+/// The statistics whose mean and variance across loci are reported with several loci
+/// (`<name>_locus_mean`, `<name>_locus_var`), by `simulate`, `null` and `observe` alike.
+pub const LOCUS_SPREAD: [&str; 5] = ["pi", "segregating_sites", "tajima_d", "theta_w", "fay_wu_h"];
+
+/// The column names `<name>_locus_mean`, `<name>_locus_var` for [`LOCUS_SPREAD`], in order.
+pub fn locus_spread_columns() -> Vec<String> {
+    LOCUS_SPREAD.iter().flat_map(|c| [format!("{c}_locus_mean"), format!("{c}_locus_var")]).collect()
+}
+
+/// Mean and sample variance (divisor n - 1) of `xs`: `(None, None)` when empty, no variance
+/// for a single value.
+pub fn mean_var(xs: &[f64]) -> (Option<f64>, Option<f64>) {
+    if xs.is_empty() {
+        return (None, None);
+    }
+    let n = xs.len() as f64;
+    let m = xs.iter().sum::<f64>() / n;
+    let v = (xs.len() > 1).then(|| xs.iter().map(|x| (x - m).powi(2)).sum::<f64>() / (n - 1.0));
+    (Some(m), v)
+}
+
+/// The per-locus values of [`LOCUS_SPREAD`] of one locus's statistics.
+pub fn locus_spread_values(s: &SampleStats) -> [Option<f64>; 5] {
+    [s.theta_pi, Some(s.segregating_sites as f64), s.tajima_d, s.theta_w, s.fay_wu_h]
+}
+
 /// Statistic column values of several unlinked loci taken together, aligned with
 /// [`stat_columns`].
 ///

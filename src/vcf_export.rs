@@ -1,7 +1,8 @@
 //! VCF export of simulated haplotypes (the writer side of VCF; reading is in `observed`).
 //!
 //! One file per replicate, VCF 4.3 written with noodles. Loci are separate contigs
-//! `locus_1`, `locus_2`, ... with positions 1..=sites each. Every site is a biallelic SNP
+//! `locus_1`, `locus_2`, ... with positions 1..=sites each, declared with their length
+//! (`##contig=<ID=locus_1,length=sites>`) so that `observe` knows each locus's span. Every site is a biallelic SNP
 //! with REF = A (ancestral, also given as INFO AA) and ALT = T (derived): infinite sites
 //! knows no bases, so the letters are placeholders. Genotypes are haploid (`0`/`1`), or,
 //! with diploid pairing, phased pairs of consecutive haplotypes (`0|1`) of one deme and time.
@@ -65,11 +66,13 @@ pub fn columns(samples: &[SampledIndividual], diploid: bool) -> Result<Vec<(Stri
     Ok(out)
 }
 
-/// Writes one replicate's loci as VCF 4.3 into `out`.
+/// Writes one replicate's loci as VCF 4.3 into `out`; `lengths[l]` is the number of sites of
+/// locus l.
 pub fn write<W: Write>(
     out: W,
     samples: &[SampledIndividual],
     loci: &[&Mutations],
+    lengths: &[u64],
     diploid: bool,
     comment: &str,
 ) -> Result<(), Error> {
@@ -81,7 +84,9 @@ pub fn write<W: Write>(
         .insert("source".parse().expect("a valid key"), vcf::header::record::Value::String(comment.to_string()))
         .map_err(|e| io::Error::new(io::ErrorKind::InvalidInput, e))?;
     for l in 0..loci.len() {
-        builder = builder.add_contig(format!("locus_{}", l + 1), Map::<Contig>::new());
+        let mut contig = Map::<Contig>::new();
+        *contig.length_mut() = lengths.get(l).map(|&x| x as usize);
+        builder = builder.add_contig(format!("locus_{}", l + 1), contig);
     }
     for (name, _) in &cols {
         builder = builder.add_sample_name(name.clone());

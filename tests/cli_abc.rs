@@ -107,11 +107,27 @@ fn bad_input_exits_2_with_file_and_key_path() {
     assert_eq!(o.status.code(), Some(2));
     let err = String::from_utf8_lossy(&o.stderr);
     assert!(err.contains("bad.yaml") && err.contains("demes[0].dormancy.mean"), "{err}");
-    // Observed sample size 6 against a hypothesis sampling 8.
+    // A plain statistics file of 6 sequences (no design to apply) against a hypothesis sampling 8.
     let h8 = write(&d, "h8.yaml", &NONE.replace("count: 6", "count: 8"));
-    let o = seedline(&["compare", &obs, "--hypotheses", &h8, "--out", d.join("o").to_str().unwrap()]);
+    let plain =
+        write(&d, "plain.json", r#"{"statistics": {"pi": 3.6, "segregating_sites": 9}, "sfs": [4, 2, 1, 1, 1]}"#);
+    let o = seedline(&["compare", &plain, "--hypotheses", &h8, "--out", d.join("o").to_str().unwrap()]);
     assert_eq!(o.status.code(), Some(2));
     assert!(String::from_utf8_lossy(&o.stderr).contains("6 sequences"), "{}", String::from_utf8_lossy(&o.stderr));
+    // With observe's file the hypothesis simulates the observed design (6 sequences) instead.
+    let o = seedline(&[
+        "compare",
+        &obs,
+        "--hypotheses",
+        &h8,
+        "--simulations",
+        "40",
+        "--tolerance",
+        "0.5",
+        "--out",
+        d.join("o8").to_str().unwrap(),
+    ]);
+    assert_eq!(o.status.code(), Some(0), "{}", String::from_utf8_lossy(&o.stderr));
     let h0 = write(&d, "none.yaml", NONE);
     let designs = write(&d, "designs.yaml", "designs:\n  - name: x\n    samples: [{deme: lake, count: 3}]\n");
     let o = seedline(&[

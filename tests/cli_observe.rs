@@ -1,6 +1,7 @@
 //! `seedline observe` through the binary: output files, and malformed inputs exiting with 2
 //! and an error naming the file, line, column and sample.
 
+use seedline::observed;
 use std::path::{Path, PathBuf};
 use std::process::{Command, Output};
 
@@ -59,10 +60,7 @@ fn observe_writes_the_three_files() {
     assert_eq!(json["design"][0]["deme"], "pond");
     assert!(json["statistics"]["tajima_d"].is_number() || json["statistics"]["tajima_d"].is_null());
     let table = std::fs::read_to_string(out.join("observed.tsv")).unwrap();
-    assert_eq!(
-        table.lines().next().unwrap().split('\t').collect::<Vec<_>>(),
-        seedline::stats::stat_columns(&["pond", "lake"])
-    );
+    assert_eq!(table.lines().next().unwrap().split('\t').collect::<Vec<_>>(), observe_table_header(&["pond", "lake"]));
     let sfs = std::fs::read_to_string(out.join("sfs.tsv")).unwrap();
     assert_eq!(sfs.lines().next().unwrap(), "xi_1\txi_2\txi_3");
     // Projected to M = 4: site 100 (j = 3 of 6) and 300 (j = 2 of 6) are projected, 200 has 4 called
@@ -137,4 +135,12 @@ fn truncated_gzip_exits_2() {
     // The complete file reads fine.
     let (code, err, _) = run("gz-full", &full, "data.vcf.gz", MAP, &["--drop-missing"]);
     assert_eq!(code, Some(0), "{err}");
+}
+
+/// The header of `observed.tsv`: locus key columns, the statistics, the per-site columns.
+fn observe_table_header(demes: &[&str]) -> Vec<String> {
+    let mut h: Vec<String> = observed::LOCUS_KEY_COLUMNS.iter().map(|s| s.to_string()).collect();
+    h.extend(seedline::stats::stat_columns(demes));
+    h.extend(observed::PER_SITE_COLUMNS.iter().map(|s| s.to_string()));
+    h
 }

@@ -87,13 +87,17 @@ fn hand_made_vcf_drop_missing() {
     let design: Vec<(&str, u32)> = o.design.iter().map(|g| (g.deme.as_str(), g.sequences)).collect();
     assert_eq!(design, [("pond", 4), ("lake", 2)]);
     assert!(o.notes.iter().any(|n| n.contains("1 of 3 used sites have no ancestral allele")));
-    // The TSV row follows stat_columns.
+    // One TSV row for the one contig: key columns, then the statistics.
     let mut tsv = Vec::new();
     observed::write_table(&o, &mut tsv).unwrap();
     let tsv = String::from_utf8(tsv).unwrap();
     let mut lines = tsv.lines();
-    assert_eq!(lines.next().unwrap().split('\t').collect::<Vec<_>>(), seedline::stats::stat_columns(&["pond", "lake"]));
-    assert_eq!(lines.next().unwrap().split('\t').nth(6), Some(""));
+    assert_eq!(lines.next().unwrap().split('\t').collect::<Vec<_>>(), observe_table_header(&["pond", "lake"]));
+    let row: Vec<&str> = lines.next().unwrap().split('\t').collect();
+    // Contig 1 has no length in the header: its locus ends at its last record (900).
+    assert_eq!(&row[..5], ["1", "0", "900", "900", "3"]);
+    assert_eq!(row[5 + 6], "", "haplotypes undefined");
+    assert!(lines.next().is_none());
 }
 
 #[test]
@@ -246,4 +250,12 @@ fn no_polarised_site_leaves_unfolded_statistics_empty() {
     let mut sfs = Vec::new();
     observed::write_sfs(&o, &mut sfs).unwrap();
     assert_eq!(String::from_utf8(sfs).unwrap(), "xi_1\txi_2\n\t\n");
+}
+
+/// The header of `observed.tsv`: locus key columns, the statistics, the per-site columns.
+fn observe_table_header(demes: &[&str]) -> Vec<String> {
+    let mut h: Vec<String> = observed::LOCUS_KEY_COLUMNS.iter().map(|s| s.to_string()).collect();
+    h.extend(seedline::stats::stat_columns(demes));
+    h.extend(observed::PER_SITE_COLUMNS.iter().map(|s| s.to_string()));
+    h
 }

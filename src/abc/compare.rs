@@ -381,6 +381,14 @@ pub fn run(
     if hypotheses.is_empty() {
         return Err(Error::Options("give at least one hypothesis file with --hypotheses".into()));
     }
+    // The hypotheses simulate the observed sample design and loci, when the file records them.
+    let mut hypotheses = hypotheses;
+    if !observed.design.is_empty() {
+        hypotheses = hypotheses.iter().map(|h| h.with_observed_design(&observed.design)).collect::<Result<_, _>>()?;
+    }
+    if let Some(lengths) = observed.layout() {
+        hypotheses = hypotheses.iter().map(|h| h.with_layout(&lengths)).collect::<Result<_, _>>()?;
+    }
     let mut examples = Vec::new();
     for h in &hypotheses {
         let s = h.example()?;
@@ -420,6 +428,17 @@ pub fn run(
     }
     let (statistics, mut notes) =
         super::choose_statistics(options.statistics.as_deref(), &super::DEFAULT_STATISTICS, &examples, Some(observed))?;
+    if !observed.design.is_empty() {
+        let seqs: u32 = observed.design.iter().map(|g| g.2).sum();
+        notes.push(format!("every hypothesis simulates the observed design: {seqs} sequences (haploid genomes)"));
+    }
+    if let Some(l) = observed.layout() {
+        notes.push(format!(
+            "every hypothesis simulates the observed {} loci ({} callable sites in all) as its loci",
+            l.len(),
+            l.iter().sum::<u64>()
+        ));
+    }
     let obs: Vec<f64> = statistics.iter().map(|s| observed.value(s).expect("checked by choose_statistics")).collect();
     let seeds: Vec<u64> =
         hypotheses.iter().enumerate().map(|(i, h)| super::hypothesis_seed(h.seed, i as u64)).collect();

@@ -296,11 +296,21 @@ pub struct DesignOptions {
     pub statistics: Option<Vec<String>>,
     /// Worker threads (0 = one per core).
     pub threads: usize,
+    /// Per-locus site counts of observed data (`--like`), applied to every design.
+    pub layout: Option<Vec<u64>>,
 }
 
 impl Default for DesignOptions {
     fn default() -> Self {
-        DesignOptions { level: 0.05, target: 0.8, replicates: 500, power_replicates: 200, statistics: None, threads: 0 }
+        DesignOptions {
+            level: 0.05,
+            target: 0.8,
+            replicates: 500,
+            power_replicates: 200,
+            statistics: None,
+            threads: 0,
+            layout: None,
+        }
     }
 }
 
@@ -355,7 +365,7 @@ pub fn design_cost(s: &crate::scenario::Scenario, c: &Costs) -> (f64, usize) {
     let mut layers: Vec<(usize, u64)> = s.samples().iter().map(|x| (x.deme, x.time)).collect();
     layers.sort_unstable();
     layers.dedup();
-    let sites = s.mutation().map_or(0, |m| m.sites()) as f64 * s.loci() as f64;
+    let sites = s.total_sites().unwrap_or(0) as f64;
     (c.per_individual * n as f64 + c.per_layer * layers.len() as f64 + c.per_site * sites, n)
 }
 
@@ -378,6 +388,13 @@ pub fn run(
         return Err(Error::Options("--replicates and --power-replicates must be at least 1".into()));
     }
     let mut notes = Vec::new();
+    if let Some(l) = &o.layout {
+        notes.push(format!(
+            "every design simulates the {} observed loci of --like ({} callable sites in all)",
+            l.len(),
+            l.iter().sum::<u64>()
+        ));
+    }
     if o.level < 1.0 / (o.replicates as f64 + 1.0) * 2.0 {
         notes.push(format!(
             "with B = {} null replicates the smallest two-sided p-value is {:.4} > level {}: no statistic can reject; raise --replicates",
@@ -388,15 +405,27 @@ pub fn run(
     }
     let mut variants = Vec::new();
     for (i, d) in designs.designs.iter().enumerate() {
+        if o.layout.is_some() && (d.sites.is_some() || d.loci.is_some()) {
+            return Err(Error::Design {
+                file: designs.origin.clone(),
+                path: format!("designs[{i}] ({})", d.name),
+                line: d.line,
+                message: "gives `sites` or `loci`, but --like takes the loci from the observed data: drop one".into(),
+            });
+        }
         let apply = |h: &Hypothesis| {
-            h.with_design(&d.samples, d.sites, d.loci).and_then(|x| x.example().map(|s| (x, s))).map_err(|e| {
-                Error::Design {
+            let laid = |x: Hypothesis| match &o.layout {
+                Some(l) => x.with_layout(l),
+                None => Ok(x),
+            };
+            h.with_design(&d.samples, d.sites, d.loci).and_then(laid).and_then(|x| x.example().map(|s| (x, s))).map_err(
+                |e| Error::Design {
                     file: designs.origin.clone(),
                     path: format!("designs[{i}] ({})", d.name),
                     line: d.line,
                     message: format!("applied to {}: {}", h.origin, super::full_message(&e)),
-                }
-            })
+                },
+            )
         };
         let (h0, s0) = apply(null)?;
         let (h1, s1) = apply(alternative)?;

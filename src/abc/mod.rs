@@ -167,9 +167,34 @@ pub struct ObservedData {
     pub sample_size: Option<u32>,
     /// Sampling design: (deme, generations ago, sequences), when the file says.
     pub design: Vec<(String, u64, u32)>,
+    /// The loci of the data (`loci` of `observe`), empty when the file has none.
+    pub loci: Vec<ObservedLocus>,
+    /// Names of the per-locus values (`locus_columns`).
+    pub locus_columns: Vec<String>,
+}
+
+/// One locus of the observed data, as `observe` wrote it.
+#[derive(Debug, Clone, PartialEq)]
+pub struct ObservedLocus {
+    /// Contig.
+    pub contig: String,
+    /// 0-based start.
+    pub start: u64,
+    /// End (exclusive).
+    pub end: u64,
+    /// Callable sites: the locus length a null simulates.
+    pub callable_sites: u64,
+    /// Values aligned with [`ObservedData::locus_columns`].
+    pub values: Vec<Option<f64>>,
 }
 
 impl ObservedData {
+    /// The callable length of every locus, when the file records loci: the layout that
+    /// `null --like`, `compare` and `design --like` simulate.
+    pub fn layout(&self) -> Option<Vec<u64>> {
+        (!self.loci.is_empty()).then(|| self.loci.iter().map(|l| l.callable_sites).collect())
+    }
+
     /// The observed value of a statistic: a named one, or `sfs_k` = ξ_k of the SFS.
     pub fn value(&self, name: &str) -> Option<f64> {
         if let Some(k) = sfs_class(name) {
@@ -258,7 +283,39 @@ pub fn parse_observed(text: &str, origin: &str) -> Result<ObservedData, Error> {
                 .collect()
         })
         .unwrap_or_default();
-    Ok(ObservedData { origin: origin.to_string(), names, values, sfs, eta, sample_size, design })
+    let locus_columns: Vec<String> = v
+        .get("locus_columns")
+        .and_then(Value::as_array)
+        .map(|a| a.iter().filter_map(Value::as_str).map(str::to_string).collect())
+        .unwrap_or_default();
+    let mut loci = Vec::new();
+    if let Some(list) = v.get("loci").and_then(Value::as_array) {
+        for (i, l) in list.iter().enumerate() {
+            let field = |k: &str| l.get(k).and_then(Value::as_u64);
+            let (Some(start), Some(end), Some(callable)) = (field("start"), field("end"), field("callable_sites"))
+            else {
+                return Err(bad(format!("loci[{i}]: needs whole numbers start, end and callable_sites")));
+            };
+            if callable == 0 {
+                return Err(bad(format!("loci[{i}].callable_sites: 0 is not allowed: a locus has at least one site")));
+            }
+            let values: Vec<Option<f64>> = l
+                .get("values")
+                .and_then(Value::as_array)
+                .map(|a| a.iter().map(|x| x.as_f64().filter(|x| x.is_finite())).collect())
+                .unwrap_or_default();
+            if values.len() != locus_columns.len() {
+                return Err(bad(format!(
+                    "loci[{i}].values: {} values for {} locus_columns",
+                    values.len(),
+                    locus_columns.len()
+                )));
+            }
+            let contig = l.get("contig").and_then(Value::as_str).unwrap_or_default().to_string();
+            loci.push(ObservedLocus { contig, start, end, callable_sites: callable, values });
+        }
+    }
+    Ok(ObservedData { origin: origin.to_string(), names, values, sfs, eta, sample_size, design, loci, locus_columns })
 }
 
 /// The default statistics: defined for every dataset with segregating sites, and not

@@ -302,6 +302,34 @@ impl Hypothesis {
     }
 }
 
+impl Hypothesis {
+    /// The same hypothesis on the loci of observed data: `loci` becomes the list of their
+    /// callable lengths (per-locus site counts) and `mutation.sites` is dropped; priors on
+    /// either are dropped with them.
+    pub fn with_layout(&self, lengths: &[u64]) -> Result<Self, Error> {
+        let mut v = self.original.clone();
+        let map = v.as_object_mut().expect("checked at load time");
+        map.insert("loci".into(), Value::from(lengths.to_vec()));
+        if let Some(m) = map.get_mut("mutation").and_then(Value::as_object_mut) {
+            m.remove("sites");
+        }
+        Self::from_value(v, &self.origin, &self.name)
+    }
+
+    /// The same hypothesis with the sampling design of observed data: one sample group per
+    /// (deme, generations ago) with its number of sequences.
+    pub fn with_observed_design(&self, design: &[(String, u64, u32)]) -> Result<Self, Error> {
+        let samples: Vec<Value> = design
+            .iter()
+            .filter(|(_, _, n)| *n > 0)
+            .map(|(deme, t, n)| serde_json::json!({"deme": deme, "count": n, "generations_ago": t}))
+            .collect();
+        let mut v = self.original.clone();
+        v.as_object_mut().expect("checked at load time").insert("samples".into(), Value::Array(samples));
+        Self::from_value(v, &self.origin, &self.name)
+    }
+}
+
 fn render(steps: &[PathStep]) -> String {
     let mut s = String::new();
     for st in steps {

@@ -1,10 +1,15 @@
-//! Reading VCF: the header through noodles' header parser, one line at a time so that an
-//! error names its line, then records one by one, each column checked by its own small
-//! function (`POS`, `REF`, `ALT`, `FILTER`, `INFO`, `FORMAT`, `GT`).
+//! Reading VCF text: the header through noodles' header parser, one line at a time so that
+//! an error names its line, then records one by one, each column checked by its own small
+//! function ([`chrom`], [`position`], [`reference`], [`alternates`], [`passes`],
+//! [`ancestral_allele`], [`genotype_key`], [`call`]).
 //!
-//! Records are split into columns by `noodles_vcf::Record`; the raw line is kept so that an
-//! error can quote the offending text.
+//! **Cost.** A record is read as bytes and walked once: the tab positions are found with
+//! `memchr`, and each sample column is visited once, in order, whatever the number of
+//! samples; only the `GT` of mapped samples is parsed (`0|1`, `0/1`, `1` and `.` by a fast
+//! path, anything else by [`genotype`]). Nothing is allocated per record once the buffers
+//! have grown to the longest line.
 
+use super::record::{Ancestral, Call, SiteRecord};
 use noodles::vcf;
 use std::io::{self, BufRead};
 
@@ -40,6 +45,9 @@ pub enum FieldError {
     /// An empty column.
     #[error("empty value; use `.` for a missing value")]
     Empty,
+    /// Text that is not UTF-8.
+    #[error("not UTF-8 text")]
+    Utf8,
     /// POS not a positive integer.
     #[error("`{value}` is not a position; allowed: a whole number >= 0")]
     Position {
@@ -134,8 +142,22 @@ pub struct VcfHeader {
     pub samples: Vec<String>,
     /// Whether the header declares `##INFO=<ID=AA,...>`.
     pub declares_aa: bool,
+    /// `##contig` lines in order: name and `length`, when given.
+    pub contigs: Vec<(String, Option<u64>)>,
     /// Number of header lines (records start on line `lines + 1`).
     pub lines: usize,
+}
+
+impl VcfHeader {
+    /// The parts of a parsed header; `lines` is its number of lines (0 for BCF).
+    pub fn of(header: &vcf::Header, lines: usize) -> Self {
+        VcfHeader {
+            samples: header.sample_names().iter().cloned().collect(),
+            declares_aa: header.infos().contains_key("AA"),
+            contigs: header.contigs().iter().map(|(k, m)| (k.to_string(), m.length().map(|l| l as u64))).collect(),
+            lines,
+        }
+    }
 }
 
 /// Reads header lines (those starting with `#`) and parses them with noodles.
@@ -169,58 +191,93 @@ pub fn read_header<R: BufRead>(reader: &mut R) -> Result<VcfHeader, (usize, Head
         return Err((n + 1, HeaderError::MissingColumnsLine));
     }
     let header = parser.finish().map_err(|e| (n, HeaderError::Parse(Box::new(e))))?;
-    Ok(VcfHeader {
-        samples: header.sample_names().iter().cloned().collect(),
-        declares_aa: header.infos().contains_key("AA"),
-        lines: n,
-    })
+    Ok(VcfHeader::of(&header, n))
 }
 
 /// The columns every record has before the samples.
 pub const FIXED_COLUMNS: [&str; 9] = ["CHROM", "POS", "ID", "REF", "ALT", "QUAL", "FILTER", "INFO", "FORMAT"];
 
-/// Checks the number of columns and that none is empty, then splits the line with noodles.
-///
-/// `samples` is the number of samples in the header; lines have 8 columns without samples,
-/// 9 + samples with.
-pub fn parse_record(line: &str, samples: usize) -> Result<vcf::Record, RecordError> {
-    let line = line.trim_end_matches(['\n', '\r']);
+/// The byte ranges of the fixed columns of one line (`FORMAT` empty without samples) and
+/// where the sample columns start.
+#[derive(Debug, Clone, Copy, Default)]
+pub struct Columns {
+    bounds: [(usize, usize); 9],
+    samples_start: usize,
+}
+
+impl Columns {
+    /// The text of fixed column `i` (0 = CHROM .. 8 = FORMAT).
+    pub fn get<'a>(&self, line: &'a [u8], i: usize) -> &'a [u8] {
+        let (a, b) = self.bounds[i];
+        &line[a..b]
+    }
+}
+
+/// Finds the fixed columns of `line` (no trailing newline) for a header with `samples`
+/// samples; lines have 8 columns without samples, 9 + samples with. A missing column or an
+/// empty fixed column is an error here; the sample columns are checked as they are read.
+pub fn split_columns(line: &[u8], samples: usize) -> Result<Columns, RecordError> {
+    let fixed = if samples == 0 { 8 } else { 9 };
     let expected = if samples == 0 { 8 } else { 9 + samples };
-    let got = line.split('\t').count();
-    if got != expected {
-        return Err(RecordError::at("columns", FieldError::ColumnCount { expected, got }));
+    let mut c = Columns::default();
+    let mut start = 0;
+    let mut tabs = memchr::memchr_iter(b'\t', line);
+    for (i, name) in FIXED_COLUMNS.iter().enumerate().take(fixed) {
+        let end = if i + 1 < fixed || samples > 0 {
+            match tabs.next() {
+                Some(t) => t,
+                None => return Err(count_error(line, expected)),
+            }
+        } else {
+            // The last column without samples runs to the end; another tab is one too many.
+            if tabs.next().is_some() {
+                return Err(count_error(line, expected));
+            }
+            line.len()
+        };
+        if end == start {
+            return Err(RecordError::at(name, FieldError::Empty));
+        }
+        c.bounds[i] = (start, end);
+        start = end + 1;
     }
-    if let Some(i) = line.split('\t').position(str::is_empty) {
-        let column = FIXED_COLUMNS.get(i).copied().unwrap_or("GT");
-        return Err(RecordError { column, sample: None, kind: FieldError::Empty });
-    }
-    vcf::Record::try_from(line.as_bytes())
-        .map_err(|_| RecordError::at("columns", FieldError::ColumnCount { expected, got }))
+    c.samples_start = start.min(line.len());
+    Ok(c)
+}
+
+fn count_error(line: &[u8], expected: usize) -> RecordError {
+    let got = memchr::memchr_iter(b'\t', line).count() + 1;
+    RecordError::at("columns", FieldError::ColumnCount { expected, got })
+}
+
+fn text(bytes: &[u8]) -> String {
+    String::from_utf8_lossy(bytes).into_owned()
+}
+
+/// `CHROM`: any non-empty text without tabs (checked by [`split_columns`]).
+pub fn chrom(value: &[u8]) -> Result<&str, RecordError> {
+    std::str::from_utf8(value).map_err(|_| RecordError::at("CHROM", FieldError::Utf8))
 }
 
 /// `POS`: a whole number (0 stands for a telomere).
-pub fn position(record: &vcf::Record, raw_line: &str) -> Result<u64, RecordError> {
-    match record.variant_start() {
-        None => Ok(0),
-        Some(Ok(p)) => Ok(usize::from(p) as u64),
-        Some(Err(_)) => Err(RecordError::at(
-            "POS",
-            FieldError::Position { value: raw_line.split('\t').nth(1).unwrap_or_default().to_string() },
-        )),
+pub fn position(value: &[u8]) -> Result<u64, RecordError> {
+    let bad = || RecordError::at("POS", FieldError::Position { value: text(value) });
+    if value.is_empty() || value.len() > 19 || !value.iter().all(u8::is_ascii_digit) {
+        return Err(bad());
     }
+    Ok(value.iter().fold(0u64, |acc, &b| acc * 10 + u64::from(b - b'0')))
 }
 
 /// `REF`: one or more bases. Returns the base when it is a single A, C, G or T (upper case).
-pub fn reference(record: &vcf::Record) -> Result<Option<u8>, RecordError> {
-    let r = record.reference_bases();
-    if r.is_empty() || !r.bytes().all(|b| b"ACGTNacgtn".contains(&b)) {
-        return Err(RecordError::at("REF", FieldError::Reference { value: r.to_string() }));
+pub fn reference(value: &[u8]) -> Result<Option<u8>, RecordError> {
+    if value.is_empty() || !value.iter().all(|b| b"ACGTNacgtn".contains(b)) {
+        return Err(RecordError::at("REF", FieldError::Reference { value: text(value) }));
     }
-    Ok(single_nucleotide(r))
+    Ok(single_nucleotide(value))
 }
 
-fn single_nucleotide(s: &str) -> Option<u8> {
-    match s.as_bytes() {
+fn single_nucleotide(s: &[u8]) -> Option<u8> {
+    match s {
         [b] if b"ACGTacgt".contains(b) => Some(b.to_ascii_uppercase()),
         _ => None,
     }
@@ -248,47 +305,293 @@ impl Alternates {
             Alternates::Multi(k) => 1 + k,
         }
     }
+
+    /// Classifies a list of alternate alleles (`.` left out).
+    pub fn of<'a>(alts: impl Iterator<Item = &'a [u8]>) -> Alternates {
+        let mut k = 0;
+        let mut first: &[u8] = &[];
+        for a in alts {
+            if k == 0 {
+                first = a;
+            }
+            k += 1;
+        }
+        match k {
+            0 => Alternates::None,
+            1 => single_nucleotide(first).map_or(Alternates::Other, Alternates::Snp),
+            k => Alternates::Multi(k),
+        }
+    }
 }
 
 /// `ALT`: `.` or comma-separated alleles.
-pub fn alternates(record: &vcf::Record) -> Alternates {
-    let alt = record.alternate_bases();
-    let alt: &str = alt.as_ref();
-    if alt.is_empty() || alt == "." {
+pub fn alternates(value: &[u8]) -> Alternates {
+    if value.is_empty() || value == b"." {
         return Alternates::None;
     }
-    let k = alt.split(',').count();
-    if k > 1 {
-        return Alternates::Multi(k);
-    }
-    single_nucleotide(alt).map_or(Alternates::Other, Alternates::Snp)
+    Alternates::of(value.split(|&b| b == b','))
 }
 
 /// `FILTER`: true when the record passed (`PASS` or `.`, unfiltered).
-pub fn passes(record: &vcf::Record) -> bool {
-    let f = record.filters();
-    matches!(f.as_ref(), "" | "." | "PASS")
+pub fn passes(value: &[u8]) -> bool {
+    matches!(value, b"" | b"." | b"PASS")
 }
 
-/// `INFO`: the value of the `AA` key (ancestral allele), if present and not `.`.
-///
-/// Compared case-insensitively, so low-confidence lower-case calls count.
-pub fn ancestral_allele(record: &vcf::Record) -> Option<String> {
-    let info = record.info();
-    let raw: &str = info.as_ref();
-    raw.split(';')
-        .find_map(|kv| kv.strip_prefix("AA="))
-        .filter(|v| !v.is_empty() && *v != ".")
-        .map(|v| v.to_ascii_uppercase())
+/// `INFO`: the `AA` key (ancestral allele), compared case-insensitively, so that
+/// low-confidence lower-case calls count.
+pub fn ancestral_allele(value: &[u8]) -> Ancestral {
+    let Some(v) = value.split(|&b| b == b';').find_map(|kv| kv.strip_prefix(b"AA=")) else {
+        return Ancestral::Absent;
+    };
+    Ancestral::of(v)
 }
 
 /// `FORMAT`: the index of the `GT` key among the keys.
-pub fn genotype_key(record: &vcf::Record) -> Result<usize, RecordError> {
-    let samples = record.samples();
-    let keys = samples.keys();
-    keys.iter().position(|k| k == "GT").ok_or_else(|| {
-        RecordError::at("FORMAT", FieldError::NoGenotype { value: keys.iter().collect::<Vec<_>>().join(":") })
-    })
+pub fn genotype_key(value: &[u8]) -> Result<usize, RecordError> {
+    value
+        .split(|&b| b == b':')
+        .position(|k| k == b"GT")
+        .ok_or_else(|| RecordError::at("FORMAT", FieldError::NoGenotype { value: text(value) }))
+}
+
+/// The `GT` subfield of one sample column; a sample value cut short before GT reads as `.`,
+/// as the VCF specification allows.
+fn gt_of(column: &[u8], gt_key: usize) -> &[u8] {
+    if gt_key == 0 {
+        return match memchr::memchr(b':', column) {
+            Some(i) => &column[..i],
+            None => column,
+        };
+    }
+    column.split(|&b| b == b':').nth(gt_key).unwrap_or(b".")
+}
+
+/// One allele index of the fast path: a digit below `alleles`, or `.`.
+#[inline(always)]
+fn digit_allele(b: u8, alleles: usize, value: &[u8]) -> Result<u8, FieldError> {
+    match b {
+        b'.' => Ok(Call::MISSING),
+        b'0'..=b'9' => {
+            let a = b - b'0';
+            if usize::from(a) >= alleles {
+                return Err(FieldError::AlleleOutOfRange { value: text(value), allele: u32::from(a), alleles });
+            }
+            Ok(a)
+        }
+        _ => Err(FieldError::Genotype { value: text(value) }),
+    }
+}
+
+/// `GT` of one sample: `0|1`, `0/1`, `1` and `.` directly, anything else through
+/// [`genotype`]. Allele indices above 253 are kept as 253 (only 0 and 1 matter downstream).
+#[inline]
+pub fn call(value: &[u8], alleles: usize) -> Result<Call, FieldError> {
+    match *value {
+        [b'.'] => Ok(Call { alleles: [Call::MISSING; 2], count: 1, phased: true, lone_missing: true }),
+        [a] => Ok(Call {
+            alleles: [digit_allele(a, alleles, value)?, Call::MISSING],
+            count: 1,
+            phased: true,
+            lone_missing: false,
+        }),
+        [a, sep @ (b'|' | b'/'), b] => Ok(Call {
+            alleles: [digit_allele(a, alleles, value)?, digit_allele(b, alleles, value)?],
+            count: 2,
+            phased: sep == b'|',
+            lone_missing: false,
+        }),
+        _ => {
+            let s = std::str::from_utf8(value).map_err(|_| FieldError::Genotype { value: text(value) })?;
+            let g = genotype(s, alleles)?;
+            let code = |a: Option<u32>| a.map_or(Call::MISSING, |x| x.min(253) as u8);
+            Ok(Call {
+                alleles: [code(g.alleles[0]), g.alleles.get(1).copied().map_or(Call::MISSING, code)],
+                count: g.alleles.len() as u8,
+                phased: g.phased,
+                lone_missing: false,
+            })
+        }
+    }
+}
+
+/// Reads the records of a text VCF after its header, one at a time into a [`SiteRecord`].
+pub struct TextRecords<R> {
+    reader: R,
+    line: Vec<u8>,
+    line_no: usize,
+    n_samples: usize,
+    /// For each VCF sample, its slot among the mapped samples (`usize::MAX`: not mapped).
+    slot: Vec<usize>,
+    /// [`allele_table`] for records with `table_alleles` alleles.
+    table: [u8; 256],
+    table_alleles: usize,
+}
+
+impl<R: BufRead> TextRecords<R> {
+    /// Records of `reader`, positioned after a header of `header_lines` lines with
+    /// `n_samples` samples; `mapped[k]` is the VCF index of mapped sample k.
+    pub fn new(reader: R, header_lines: usize, n_samples: usize, mapped: &[usize]) -> Self {
+        let mut slot = vec![usize::MAX; n_samples];
+        for (k, &i) in mapped.iter().enumerate() {
+            slot[i] = k;
+        }
+        TextRecords {
+            reader,
+            line: Vec::with_capacity(1 << 12),
+            line_no: header_lines,
+            n_samples,
+            slot,
+            table: allele_table(2),
+            table_alleles: 2,
+        }
+    }
+
+    /// Line number of the last record read.
+    pub fn line(&self) -> usize {
+        self.line_no
+    }
+
+    /// Reads the next record into `rec` (its calls in mapped order); `Ok(false)` at the end.
+    /// Errors carry the column (and sample, by VCF index) but not the line, which
+    /// [`TextRecords::line`] gives.
+    pub fn read(&mut self, rec: &mut SiteRecord) -> Result<bool, ReadError> {
+        self.line.clear();
+        let n = self.reader.read_until(b'\n', &mut self.line).map_err(ReadError::Io)?;
+        if n == 0 {
+            return Ok(false);
+        }
+        self.line_no += 1;
+        let mut end = self.line.len();
+        while end > 0 && matches!(self.line[end - 1], b'\n' | b'\r') {
+            end -= 1;
+        }
+        let line = &self.line[..end];
+        let cols = split_columns(line, self.n_samples).map_err(ReadError::Record)?;
+        let name = chrom(cols.get(line, 0)).map_err(ReadError::Record)?;
+        if rec.contig != name {
+            rec.contig.clear();
+            rec.contig.push_str(name);
+        }
+        rec.position = position(cols.get(line, 1)).map_err(ReadError::Record)?;
+        rec.reference = reference(cols.get(line, 3)).map_err(ReadError::Record)?;
+        rec.alternates = alternates(cols.get(line, 4));
+        rec.passes = passes(cols.get(line, 6));
+        rec.ancestral = ancestral_allele(cols.get(line, 7));
+        if self.n_samples == 0 {
+            return Ok(true);
+        }
+        let format = cols.get(line, 8);
+        let gt_key = genotype_key(format).map_err(ReadError::Record)?;
+        let alleles = rec.alternates.alleles();
+        let region = &line[cols.samples_start.min(line.len())..];
+        if self.table_alleles != alleles {
+            self.table = allele_table(alleles);
+            self.table_alleles = alleles;
+        }
+        rec.uniform = None;
+        if format == b"GT" {
+            rec.uniform = uniform_calls(region, &self.table, &self.slot, &mut rec.uniform_alleles);
+            if rec.uniform.is_some() {
+                return Ok(true);
+            }
+        }
+        let expected = 9 + self.n_samples;
+        let mut start = cols.samples_start;
+        for i in 0..self.n_samples {
+            let stop = if i + 1 < self.n_samples {
+                match memchr::memchr(b'\t', &line[start..]) {
+                    Some(t) => start + t,
+                    None => return Err(ReadError::Record(count_error(line, expected))),
+                }
+            } else {
+                if memchr::memchr(b'\t', &line[start..]).is_some() {
+                    return Err(ReadError::Record(count_error(line, expected)));
+                }
+                line.len()
+            };
+            let column = &line[start..stop];
+            if column.is_empty() {
+                return Err(ReadError::Sample { index: i, source: FieldError::Empty });
+            }
+            let k = self.slot[i];
+            if k != usize::MAX {
+                rec.calls[k] =
+                    call(gt_of(column, gt_key), alleles).map_err(|source| ReadError::Sample { index: i, source })?;
+            }
+            start = stop + 1;
+        }
+        Ok(true)
+    }
+}
+
+/// Marks a byte that is not an allele of the fast path.
+const BAD: u8 = 254;
+
+/// The code of every byte as one allele of the fast path: its index for a digit below
+/// `alleles`, [`Call::MISSING`] for `.`, [`BAD`] for anything else.
+fn allele_table(alleles: usize) -> [u8; 256] {
+    let mut t = [BAD; 256];
+    for d in 0..alleles.min(10) {
+        t[usize::from(b'0') + d] = d as u8;
+    }
+    t[usize::from(b'.')] = Call::MISSING;
+    t
+}
+
+/// The common case read in one pass without searching: every sample column is a one-byte
+/// haploid GT (`0`, `1`) or every one a three-byte diploid GT (`0|1`, `1/0`, `./.`), so that
+/// the columns sit at fixed offsets. Writes the alleles of the mapped samples (`p` each, in
+/// mapped order) and returns `(p, all phased)`; returns `None` for anything else (a lone `.`
+/// included, or anything malformed), which the general path then reads and reports.
+fn uniform_calls(region: &[u8], table: &[u8; 256], slot: &[usize], out: &mut [u8]) -> Option<(u8, bool)> {
+    let n = slot.len();
+    if n == 0 {
+        return None;
+    }
+    let code = |b: u8| table[usize::from(b)];
+    let mut ok = true;
+    if region.len() == 4 * n - 1 {
+        // Every column but the last is `a|b\t`; the last has no tab.
+        let mut pipes = 0usize;
+        for (c, &k) in region.chunks(4).zip(slot) {
+            let (a, sep, b) = (code(c[0]), c[1], code(c[2]));
+            ok &= (sep == b'|' || sep == b'/') & (a != BAD) & (b != BAD);
+            pipes += usize::from(sep == b'|' || k == usize::MAX);
+            if k != usize::MAX {
+                out[2 * k] = a;
+                out[2 * k + 1] = b;
+            }
+        }
+        (ok && region.iter().skip(3).step_by(4).all(|&t| t == b'\t')).then_some((2, pipes == n))
+    } else if region.len() == 2 * n - 1 {
+        for (c, &k) in region.chunks(2).zip(slot) {
+            let a = code(c[0]);
+            // A lone `.` may stand for any ploidy: leave it to the general path.
+            ok &= (a != BAD) & (a != Call::MISSING);
+            if k != usize::MAX {
+                out[k] = a;
+            }
+        }
+        (ok && region.iter().skip(1).step_by(2).all(|&t| t == b'\t')).then_some((1, true))
+    } else {
+        None
+    }
+}
+
+/// Why a record could not be read.
+#[derive(Debug)]
+pub enum ReadError {
+    /// Reading failed (truncated or corrupt compression).
+    Io(io::Error),
+    /// A column is wrong.
+    Record(RecordError),
+    /// The `GT` of sample `index` (VCF order) is wrong.
+    Sample {
+        /// VCF index of the sample.
+        index: usize,
+        /// What is wrong.
+        source: FieldError,
+    },
 }
 
 /// A parsed `GT`: allele indices (None = missing) and whether it is phased.
@@ -298,17 +601,6 @@ pub struct Genotype {
     pub alleles: Vec<Option<u32>>,
     /// True when every separator is `|` (always true for a haploid call).
     pub phased: bool,
-}
-
-/// The raw `GT` of sample `index` (0-based among the VCF samples); a missing sample value,
-/// or one cut short before GT, reads as `.` as the VCF specification allows.
-pub fn raw_genotype(record: &vcf::Record, gt_key: usize, index: usize) -> String {
-    let samples = record.samples();
-    let Some(sample) = samples.get_index(index) else {
-        return ".".to_string();
-    };
-    let raw: &str = sample.as_ref();
-    raw.split(':').nth(gt_key).unwrap_or(".").to_string()
 }
 
 /// `GT`: allele indices separated by `/` (unphased) or `|` (phased), with an optional
@@ -365,23 +657,56 @@ mod tests {
 
     #[test]
     fn columns_of_a_record() {
-        let line = "1\t7\t.\tA\tG\t.\tq10\tDP=3;AA=g\tGT:DP\t0|1:3\t1\n";
-        let r = parse_record(line, 2).unwrap();
-        assert_eq!(position(&r, line), Ok(7));
-        assert_eq!(reference(&r), Ok(Some(b'A')));
-        assert_eq!(alternates(&r), Alternates::Snp(b'G'));
-        assert!(!passes(&r));
-        assert_eq!(ancestral_allele(&r).as_deref(), Some("G"));
-        assert_eq!(genotype_key(&r), Ok(0));
-        assert_eq!(raw_genotype(&r, 0, 1), "1");
-        let e = parse_record(line, 3).unwrap_err();
-        assert_eq!(e.kind, FieldError::ColumnCount { expected: 12, got: 11 });
-        let bad = "1\tx7\t.\tAT\tA,C\t.\tPASS\t.\tDP\t3\n";
-        let r = parse_record(bad, 1).unwrap();
-        assert!(matches!(position(&r, bad), Err(RecordError { column: "POS", .. })));
-        assert_eq!(reference(&r), Ok(None));
-        assert_eq!(alternates(&r), Alternates::Multi(2));
-        assert!(passes(&r));
-        assert_eq!(genotype_key(&r).unwrap_err().column, "FORMAT");
+        let line = b"1\t7\t.\tA\tG\t.\tq10\tDP=3;AA=g\tGT:DP\t0|1:3\t1";
+        let c = split_columns(line, 2).unwrap();
+        assert_eq!(chrom(c.get(line, 0)), Ok("1"));
+        assert_eq!(position(c.get(line, 1)), Ok(7));
+        assert_eq!(reference(c.get(line, 3)), Ok(Some(b'A')));
+        assert_eq!(alternates(c.get(line, 4)), Alternates::Snp(b'G'));
+        assert!(!passes(c.get(line, 6)));
+        assert_eq!(ancestral_allele(c.get(line, 7)), Ancestral::Base(b'G'));
+        assert_eq!(genotype_key(c.get(line, 8)), Ok(0));
+        assert_eq!(gt_of(b"0|1:3", 0), b"0|1");
+        assert_eq!(gt_of(b"3", 1), b".");
+        let mut rec = SiteRecord::new(3);
+        let mut r = TextRecords::new(&line[..], 0, 3, &[0, 1, 2]);
+        match r.read(&mut rec) {
+            Err(ReadError::Record(e)) => assert_eq!(e.kind, FieldError::ColumnCount { expected: 12, got: 11 }),
+            other => panic!("expected a column count error, got {other:?}"),
+        }
+        let bad = b"1\tx7\t.\tAT\tA,C\t.\tPASS\t.\tDP\t3";
+        let c = split_columns(bad, 1).unwrap();
+        assert!(matches!(position(c.get(bad, 1)), Err(RecordError { column: "POS", .. })));
+        assert_eq!(reference(c.get(bad, 3)), Ok(None));
+        assert_eq!(alternates(c.get(bad, 4)), Alternates::Multi(2));
+        assert!(passes(c.get(bad, 6)));
+        assert_eq!(genotype_key(c.get(bad, 8)).unwrap_err().column, "FORMAT");
+        assert_eq!(split_columns(b"1\t\t.\tA\tG\t.\t.\t.", 0).unwrap_err().column, "POS");
+    }
+
+    #[test]
+    fn fast_calls_agree_with_the_general_parser() {
+        // Every one- and three-byte GT of digits 0..3, `.`, `|` and `/` against [`genotype`].
+        let atoms = [b'0', b'1', b'2', b'3', b'.'];
+        let mut values: Vec<Vec<u8>> = atoms.iter().map(|&a| vec![a]).collect();
+        for &a in &atoms {
+            for sep in [b'|', b'/'] {
+                for &b in &atoms {
+                    values.push(vec![a, sep, b]);
+                }
+            }
+        }
+        for v in values {
+            let s = std::str::from_utf8(&v).unwrap();
+            match (call(&v, 3), genotype(s, 3)) {
+                (Ok(c), Ok(g)) => {
+                    let want: Vec<u8> = g.alleles.iter().map(|a| a.map_or(Call::MISSING, |x| x as u8)).collect();
+                    assert_eq!(&c.alleles[..c.count as usize], &want[..], "{s}");
+                    assert_eq!(c.phased, g.phased, "{s}");
+                }
+                (Err(a), Err(b)) => assert_eq!(a, b, "{s}"),
+                (a, b) => panic!("{s}: fast {a:?} vs general {b:?}"),
+            }
+        }
     }
 }

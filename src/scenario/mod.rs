@@ -145,6 +145,7 @@ pub struct Scenario {
     seed_ages: Vec<((usize, u64), SeedAge)>,
     mutation: Option<MutationModel>,
     loci: u64,
+    locus_lengths: Option<Vec<u64>>,
     recombination: Option<ArgConfig>,
     normalized: RawScenario,
 }
@@ -204,7 +205,8 @@ impl Scenario {
         let key = if self.demes[deme].dormancy.is_time_dependent() { time } else { 0 };
         self.seed_ages.iter().find(|(k, _)| *k == (deme, key)).map(|(_, s)| s)
     }
-    /// The mutation model, when the scenario has one.
+    /// The mutation model, when the scenario has one. With per-locus lengths (`loci` as a
+    /// list) its `sites` is the longest locus; [`Scenario::locus_mutation`] gives each locus's.
     pub fn mutation(&self) -> Option<&MutationModel> {
         self.mutation.as_ref()
     }
@@ -212,10 +214,39 @@ impl Scenario {
     pub fn loci(&self) -> u64 {
         self.loci
     }
-    /// Recombination within each locus: `mutation.sites` sites and the rate per adjacent pair
-    /// of sites per generation of reproduction, when the scenario has a `recombination` key.
+    /// Recombination within each locus: `mutation.sites` sites (the longest locus with
+    /// per-locus lengths) and the rate per adjacent pair of sites per generation of
+    /// reproduction, when the scenario has a `recombination` key.
     pub fn recombination(&self) -> Option<&ArgConfig> {
         self.recombination.as_ref()
+    }
+    /// The sites of each locus, when `loci` lists them.
+    pub fn locus_lengths(&self) -> Option<&[u64]> {
+        self.locus_lengths.as_deref()
+    }
+    /// Sites of locus `locus` (0-based), when the scenario has a mutation model.
+    pub fn locus_sites(&self, locus: u64) -> Option<u64> {
+        match &self.locus_lengths {
+            Some(v) => v.get(locus as usize).copied(),
+            None => self.mutation.as_ref().map(MutationModel::sites),
+        }
+    }
+    /// Sites over all loci of a replicate.
+    pub fn total_sites(&self) -> Option<u64> {
+        match &self.locus_lengths {
+            Some(v) => Some(v.iter().sum()),
+            None => self.mutation.as_ref().map(|m| m.sites() * self.loci),
+        }
+    }
+    /// The mutation model of locus `locus`: the scenario's rates on that locus's sites.
+    pub fn locus_mutation(&self, locus: u64) -> Option<MutationModel> {
+        let m = self.mutation.as_ref()?;
+        Some(m.with_sites(self.locus_sites(locus)?))
+    }
+    /// Recombination within locus `locus`: the scenario's rate along that locus's sites.
+    pub fn locus_recombination(&self, locus: u64) -> Option<ArgConfig> {
+        let r = self.recombination.as_ref()?;
+        ArgConfig::new(self.locus_sites(locus)?, r.recombination_rate()).ok()
     }
     /// The scenario as parsed, with defaults filled in (for reports).
     pub fn normalized(&self) -> &RawScenario {
@@ -288,15 +319,9 @@ impl Validator {
         let names: Vec<&str> = raw.demes.iter().map(|d| d.value.name.as_str()).collect();
         let migration = self.migration(&raw.migration, &names);
         let (samples, seed_ages) = self.samples(&raw.samples, &names, &demes, horizon);
-        let mutation = raw.mutation.as_ref().and_then(|m| self.mutation(m));
-        let loci = match &raw.loci {
-            Some(l) if l.value == 0 || l.value > MAX_LOCI => {
-                self.err("loci", line_of(l), format!("{} is not allowed: loci must be in 1..={MAX_LOCI}", l.value));
-                1
-            }
-            Some(l) => l.value,
-            None => 1,
-        };
+        let (loci, locus_lengths) = self.loci(raw.loci.as_ref());
+        let listed = matches!(raw.loci.as_ref().map(|l| &l.value), Some(raw::RawLoci::Lengths(_)));
+        let mutation = raw.mutation.as_ref().and_then(|m| self.mutation(m, locus_lengths.as_deref(), listed));
         let recombination = raw.recombination.as_ref().and_then(|r| self.recombination(r, mutation.as_ref(), raw));
         if !self.issues.is_empty() {
             return None;
@@ -317,9 +342,51 @@ impl Validator {
             seed_ages,
             mutation,
             loci,
+            locus_lengths,
             recombination,
             normalized,
         })
+    }
+
+    /// `loci`: a count in 1..=MAX_LOCI, or a list of per-locus site counts.
+    fn loci(&mut self, raw: Option<&Spanned<raw::RawLoci>>) -> (u64, Option<Vec<u64>>) {
+        let Some(l) = raw else { return (1, None) };
+        let line = line_of(l);
+        match &l.value {
+            raw::RawLoci::Count(k) => {
+                if k.is_finite() && k.fract() == 0.0 && *k >= 1.0 && *k <= MAX_LOCI as f64 {
+                    (*k as u64, None)
+                } else {
+                    self.err(
+                        "loci",
+                        line,
+                        format!(
+                            "{k} is not allowed: a whole number of loci in 1..={MAX_LOCI}, or a list of per-locus site counts"
+                        ),
+                    );
+                    (1, None)
+                }
+            }
+            raw::RawLoci::Lengths(v) => {
+                if v.is_empty() || v.len() as u64 > MAX_LOCI {
+                    self.err("loci", line, format!("a list of 1..={MAX_LOCI} per-locus site counts is needed"));
+                    return (1, None);
+                }
+                let mut out = Vec::with_capacity(v.len());
+                for (i, &x) in v.iter().enumerate() {
+                    if x.is_finite() && x.fract() == 0.0 && (1.0..=1.0e12).contains(&x) {
+                        out.push(x as u64);
+                    } else {
+                        self.err(
+                            format!("loci[{i}]"),
+                            line,
+                            format!("{x} is not allowed: the sites of a locus are a whole number in [1, 1e12]"),
+                        );
+                    }
+                }
+                (v.len() as u64, (out.len() == v.len()).then_some(out))
+            }
+        }
     }
 
     fn recombination(
@@ -357,10 +424,36 @@ impl Validator {
         }
     }
 
-    fn mutation(&mut self, m: &Spanned<raw::RawMutation>) -> Option<MutationModel> {
+    fn mutation(
+        &mut self,
+        m: &Spanned<raw::RawMutation>,
+        lengths: Option<&[u64]>,
+        listed: bool,
+    ) -> Option<MutationModel> {
         let line = line_of(m);
         let r = &m.value;
-        let sites = self.whole("mutation.sites", line, r.sites, 1.0, 1.0e12);
+        let sites = match (r.sites, lengths) {
+            // A bad list has reported its own issues.
+            (None, None) if listed => None,
+            (Some(s), None) => self.whole("mutation.sites", line, s, 1.0, 1.0e12),
+            (None, Some(v)) => v.iter().max().copied(),
+            (Some(_), Some(_)) => {
+                self.err(
+                    "mutation.sites",
+                    line,
+                    "the sites per locus are given twice: keep either `mutation.sites` or the list `loci`",
+                );
+                None
+            }
+            (None, None) => {
+                self.err(
+                    "mutation.sites",
+                    line,
+                    "missing: give the sites of one locus (`sites: 10000`), or `loci` as a list of per-locus site counts",
+                );
+                None
+            }
+        };
         let rate = |v: &mut Self, key: &str, x: Option<f64>| -> Option<f64> {
             match x {
                 Some(x) if x.is_finite() && (0.0..=1.0).contains(&x) => Some(x),
@@ -867,6 +960,12 @@ impl fmt::Display for Scenario {
             }
         } else {
             writeln!(f, "no migration")?;
+        }
+        if let Some(v) = &self.locus_lengths {
+            let (lo, hi) = (v.iter().min().copied().unwrap_or(0), v.iter().max().copied().unwrap_or(0));
+            writeln!(f, "{} loci of {lo}..{hi} sites ({} sites in all)", v.len(), v.iter().sum::<u64>())?;
+        } else if self.loci > 1 {
+            writeln!(f, "{} unlinked loci", self.loci)?;
         }
         if let Some(r) = &self.recombination {
             let rate = r.recombination_rate();

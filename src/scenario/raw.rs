@@ -34,12 +34,23 @@ pub struct RawScenario {
     /// Infinite-sites mutation; no mutations when absent.
     #[serde(default, skip_serializing_if = "Option::is_none")]
     pub mutation: Option<Spanned<RawMutation>>,
-    /// Independent (unlinked) loci per replicate (default 1).
+    /// Independent (unlinked) loci per replicate (default 1), or the list of their lengths.
     #[serde(default, skip_serializing_if = "Option::is_none")]
-    pub loci: Option<Spanned<u64>>,
+    pub loci: Option<Spanned<RawLoci>>,
     /// Recombination within each locus; none when absent.
     #[serde(default, skip_serializing_if = "Option::is_none")]
     pub recombination: Option<Spanned<RawRecombination>>,
+}
+
+/// `loci:` as written: a number of loci of `mutation.sites` sites each, or one site count
+/// per locus.
+#[derive(Debug, Clone, Deserialize, Serialize)]
+#[serde(untagged)]
+pub enum RawLoci {
+    /// Number of loci.
+    Count(f64),
+    /// Sites of each locus.
+    Lengths(Vec<f64>),
 }
 
 /// Recombination within a locus (the sequence length is `mutation.sites`).
@@ -57,8 +68,9 @@ pub struct RawMutation {
     /// Rate in every generation, dormant ones included.
     #[serde(default, skip_serializing_if = "Option::is_none")]
     pub rate: Option<f64>,
-    /// Sites per locus.
-    pub sites: f64,
+    /// Sites per locus (absent when `loci` lists the sites of each locus).
+    #[serde(default, skip_serializing_if = "Option::is_none")]
+    pub sites: Option<f64>,
     /// Rate in the generation of reproduction (overrides `rate`).
     #[serde(default, skip_serializing_if = "Option::is_none")]
     pub reproduction_rate: Option<f64>,

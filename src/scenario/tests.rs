@@ -162,3 +162,32 @@ fn all_problems_reported_at_once() {
     let i = issues("demes:\n  - {name: 'a b', size: 0}\nsamples: [{deme: a, count: 1}]\nreplicates: 0\n");
     assert!(i.len() >= 3, "{i:?}");
 }
+
+#[test]
+fn loci_as_a_list_of_lengths() {
+    let base = format!("{DEME}samples: [{{deme: a, count: 3}}]\n");
+    let s = Scenario::from_yaml_str(
+        &format!("{base}mutation: {{rate: 1.0e-3}}\nloci: [120, 80, 300]\nrecombination: {{rate: 1.0e-4}}\n"),
+        "t",
+    )
+    .unwrap();
+    assert_eq!((s.loci(), s.locus_lengths()), (3, Some(&[120u64, 80, 300][..])));
+    assert_eq!((s.locus_sites(1), s.total_sites()), (Some(80), Some(500)));
+    assert_eq!(s.locus_mutation(2).unwrap().sites(), 300);
+    assert_eq!(s.locus_recombination(1).unwrap().sites(), 80);
+    assert_eq!(s.mutation().unwrap().sites(), 300, "the longest locus");
+    let count =
+        Scenario::from_yaml_str(&format!("{base}mutation: {{rate: 1.0e-3, sites: 50}}\nloci: 4\n"), "t").unwrap();
+    assert_eq!((count.locus_lengths(), count.locus_sites(3), count.total_sites()), (None, Some(50), Some(200)));
+    let i = issues(&format!("{base}mutation: {{rate: 1.0e-3, sites: 50}}\nloci: [10, 20]\n"));
+    assert!(has(&i, "mutation.sites", "given twice"), "{i:?}");
+    let i = issues(&format!("{base}mutation: {{rate: 1.0e-3}}\n"));
+    assert!(has(&i, "mutation.sites", "missing"), "{i:?}");
+    let i = issues(&format!("{base}mutation: {{rate: 1.0e-3}}\nloci: [10, 0, 2.5]\n"));
+    assert!(has(&i, "loci[1]", "whole number") && has(&i, "loci[2]", "whole number"), "{i:?}");
+    assert!(!i.iter().any(|x| x.path == "mutation.sites"), "a bad list reports only itself: {i:?}");
+    let i = issues(&format!("{base}mutation: {{rate: 1.0e-3, sites: 5}}\nloci: 0\n"));
+    assert!(has(&i, "loci", "1..="), "{i:?}");
+    let i = issues(&format!("{base}mutation: {{rate: 1.0e-3}}\nloci: []\n"));
+    assert!(has(&i, "loci", "list"), "{i:?}");
+}

@@ -286,6 +286,13 @@ impl Prediction {
 /// Predictions for a scenario (pure; never simulates).
 pub fn predict(s: &Scenario) -> Prediction {
     let mut out = predict_without_recombination(s);
+    if s.locus_lengths().is_some_and(|v| v.iter().any(|&x| x != v[0])) {
+        out.haplotypes_mean = None;
+        out.segregating_sites_var = None;
+        out.notes.push(
+            "loci of different lengths: means of sums (S, pi, the SFS) add up over loci; E[haplotypes] and Var[S] are per-locus quantities, so none is given".into(),
+        );
+    }
     if s.recombination().is_some_and(|r| r.recombination_rate() > 0.0 && r.sites() > 1) {
         // Every site has the genealogy of the model without recombination, so means of sums
         // over sites still hold; haplotype counts and Var[S] depend on the linkage.
@@ -328,6 +335,15 @@ fn second_moment(law: &Dormancy) -> Option<f64> {
             let m = law.max_lookback()?;
             Some((1..=m).map(|k| (k * k) as f64 * law.pmf(k)).sum())
         }
+    }
+}
+
+/// Sums over loci scale with the sites: with per-locus lengths, loci × mutation.sites (the
+/// longest) is replaced by the total number of sites.
+fn loci_factor(s: &Scenario) -> f64 {
+    match (s.total_sites(), s.mutation()) {
+        (Some(t), Some(m)) => t as f64 / m.sites() as f64,
+        _ => s.loci() as f64,
     }
 }
 
@@ -379,7 +395,7 @@ impl<'a> Ctx<'a> {
             }
             _ => None,
         };
-        Ctx { s, check: limits::check(s), setting, exact, mutation, loci: s.loci() as f64, cache: HashMap::new() }
+        Ctx { s, check: limits::check(s), setting, exact, mutation, loci: loci_factor(s), cache: HashMap::new() }
     }
 
     /// Kind of a limit prediction: a limit when the rule holds, else an approximation.
