@@ -72,6 +72,18 @@ pub enum Error {
         /// Sites available.
         sites: u64,
     },
+    /// The mutations of one locus would need more memory than can be allocated.
+    #[error(
+        "{mutations} mutations fell on one locus: placing them needs about {} of memory ({per_mutation} bytes per mutation for {samples} sampled sequences), more than can be allocated; lower mutation.sites or the mutation rate", crate::cost::bytes_text(*mutations as f64 * *per_mutation as f64)
+    )]
+    TooMuchMemory {
+        /// Mutations drawn.
+        mutations: u64,
+        /// Bytes per mutation ([`crate::cost::bytes_per_mutation`]).
+        per_mutation: u64,
+        /// Sample size.
+        samples: usize,
+    },
     /// More mutations than sites on one local tree of a recombining locus.
     #[error(
         "{mutations} mutations fell on the local tree of sites {left}..{right} ({} sites): the infinite-sites model needs many more sites than mutations on every local tree (lower the mutation or recombination rate)", right - left
@@ -172,6 +184,12 @@ pub fn place_with<R: Rng + ?Sized>(
     if total == 0 {
         return Ok(Mutations { positions: Vec::new(), haplotypes });
     }
+    // Ask for the memory once before allocating it piece by piece: a refused request is an
+    // error to report, where a failed allocation inside the placement would abort.
+    let per_mutation = crate::cost::bytes_per_mutation(n);
+    let refused = || Error::TooMuchMemory { mutations: total, per_mutation, samples: n };
+    let bytes = usize::try_from(total).ok().and_then(|t| t.checked_mul(per_mutation as usize)).ok_or_else(refused)?;
+    Vec::<u8>::new().try_reserve_exact(bytes).map_err(|_| refused())?;
     // Sample bitsets below each node, children before parents.
     let mut below = vec![0u64; graph.node_count() * words];
     for v in g.postorder() {
@@ -201,6 +219,37 @@ pub fn place_with<R: Rng + ?Sized>(
         haplotypes.push_site_bits(&below[child * words..(child + 1) * words]);
     }
     Ok(Mutations { positions: sites.into_iter().map(|(p, _)| p).collect(), haplotypes })
+}
+
+/// Expected number of mutations on the whole genealogy: the sum of [`MutationModel::edge_mean`]
+/// over its edges.
+pub fn expected_count(g: &Genealogy, model: &MutationModel) -> f64 {
+    let graph = g.graph();
+    graph.edge_indices().map(|e| model.edge_mean(graph[e].length, graph[e].jumps)).sum()
+}
+
+/// Splits `total` mutations over loci in proportion to `weights`: a multinomial draw, as
+/// sequential binomials Bin(left, w_i / (w_i + ... + w_last)).
+pub fn split_count<R: Rng + ?Sized>(total: u64, weights: &[f64], rng: &mut R) -> Result<Vec<u64>, Error> {
+    let sum: f64 = weights.iter().sum();
+    if total > 0 && !(sum > 0.0 && sum.is_finite()) {
+        return Err(Error::NoBranchLength { mutations: total });
+    }
+    let (mut left, mut rest) = (total, sum);
+    let mut out = Vec::with_capacity(weights.len());
+    for (i, &w) in weights.iter().enumerate() {
+        let k = if i + 1 == weights.len() {
+            left
+        } else if left == 0 || rest <= 0.0 {
+            0
+        } else {
+            rand_distr::Binomial::new(left, (w / rest).clamp(0.0, 1.0)).map_or(0, |b| b.sample(rng))
+        };
+        out.push(k);
+        left -= k;
+        rest -= w;
+    }
+    Ok(out)
 }
 
 /// Places mutations along an ancestral recombination graph: each local tree receives the

@@ -5,6 +5,8 @@
 //! never leaves a half-written file under the final name.
 
 pub mod figures;
+pub mod output;
+pub mod progress;
 
 use serde::Serialize;
 use std::fs;
@@ -440,7 +442,8 @@ pub fn simulate_to_dir(
             r
         },
         |rep, outcome| {
-            let loci_out = outcome?;
+            let loci_out =
+                outcome.map_err(|e| anyhow::Error::new(e).context(format!("{scenario_file}: replicate {rep}")))?;
             let values = replicate_values(rep, &loci_out, n_demes);
             let fields: Vec<String> = values.iter().map(|x| tsv_value(*x)).collect();
             writeln!(table.out, "{}", fields.join("\t"))?;

@@ -317,6 +317,14 @@ fn structured_demes(s: &Scenario, out: &mut Prediction, laws: &[&Dormancy], size
         out.notes.push("infinite-mean dormancy with several demes: no prediction applies".into());
         return;
     };
+    if sizes.len() > structured::MAX_DEMES {
+        out.notes.push(format!(
+            "{} demes: the exact pair-time calculation is implemented for at most {} demes",
+            sizes.len(),
+            structured::MAX_DEMES
+        ));
+        return;
+    }
     let fsizes: Vec<f64> = sizes.iter().map(|&x| x as f64).collect();
     let Ok(mut times) = structured::pair_coalescence_times(&fsizes, s.migration().matrix_at(0)) else {
         out.notes.push("the migration matrix does not connect the demes: pair times are infinite".into());
