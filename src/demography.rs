@@ -399,6 +399,50 @@ mod tests {
     }
 
     #[test]
+    fn sparse_rows_answer_as_the_dense_matrix() {
+        // Row a: 0.25 to b, 0.05 to c, stays with 1 - 0.3 = 0.7; row b: never leaves.
+        let m = Migration::from_sparse(vec![(0, u64::MAX, vec![vec![(2, 0.05), (1, 0.25)], vec![], vec![(0, 0.5)]])]);
+        assert!((m.rate(0, 0, 7) - 0.7).abs() < 1e-15);
+        assert_eq!(m.rate(0, 1, 7), 0.25);
+        assert_eq!(m.rate(1, 0, 7), 0.0);
+        assert_eq!(m.rate(1, 1, 7), 1.0);
+        let dense = m.matrix_at(0);
+        assert_eq!(dense[2], vec![0.5, 0.0, 0.5]);
+        assert!(dense.iter().all(|r| (r.iter().sum::<f64>() - 1.0).abs() < 1e-12));
+        assert_eq!(m.epoch_at(0).row(0), [(1, 0.25), (2, 0.05)]);
+        assert_eq!(m.epoch_at(0).n_rates(), 3);
+        // A long row is searched by bisection: same frequencies as the linear scan.
+        let row: Vec<(usize, f64)> = (1..40).map(|e| (e, 0.01)).collect();
+        let mut rows = vec![Vec::new(); 40];
+        rows[0] = row;
+        let m = Migration::from_sparse(vec![(0, u64::MAX, rows)]);
+        let mut rng = rand::rngs::ChaCha8Rng::seed_from_u64(2);
+        let n = 200_000;
+        let stay = (0..n).filter(|_| m.parent_deme(0, 0, &mut rng) == 0).count() as f64;
+        // Binomial(n, 0.61): sd = 218; 5 sd.
+        assert!((stay - 0.61 * n as f64).abs() < 1090.0, "{stay}");
+    }
+
+    #[test]
+    fn reachability_follows_the_epochs() {
+        // a -> b only for child times [0, 10); b -> c from 100 on; d never connected.
+        let m = Migration::from_sparse(vec![
+            (0, 10, vec![vec![(1, 0.1)], vec![], vec![], vec![]]),
+            (10, 100, vec![vec![], vec![], vec![], vec![]]),
+            (100, u64::MAX, vec![vec![], vec![(2, 0.1)], vec![], vec![]]),
+        ]);
+        assert!(m.may_meet(0, 0, 1, 0), "a reaches b before 10");
+        assert!(m.may_meet(0, 0, 2, 0), "a -> b, later b -> c");
+        assert!(!m.may_meet(0, 10, 1, 10), "after 10 a is stuck in a");
+        assert!(m.may_meet(1, 50, 2, 50), "b reaches c from 100 on");
+        assert!(!m.may_meet(3, 0, 0, 0) && !m.may_meet(3, 0, 2, 0));
+        assert_eq!(m.next_epoch_start(5), 10);
+        assert_eq!(m.next_epoch_start(100), u64::MAX);
+        let groups = m.meeting_groups(&[(0, 0), (2, 0), (3, 0), (1, 20)]);
+        assert_eq!(groups, vec![vec![0, 1, 3], vec![2]]);
+    }
+
+    #[test]
     fn migration_frequencies() {
         let m = Migration::from_matrices(vec![
             (0, 100, vec![vec![0.7, 0.3], vec![0.0, 1.0]]),

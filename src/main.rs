@@ -479,10 +479,11 @@ fn run(cli: Cli) -> Result<()> {
             let output = Output::begin(&out, "families", force.force)?;
             let bar = ui.progress("families", "replicates", scenario.replicates());
             let config = run.batch();
-            let report = families::run(&scenario, &origin, config, &Options { colours, ..Options::default() }, &|| {
-                bar.inc(1)
-            })
-            .map_err(|e| if e.is_bad_input() { anyhow::Error::new(BadInput(e.to_string())) } else { e.into() })?;
+            let report =
+                families::run(&scenario, &origin, config, &Options { colours, ..Options::default() }, &|| bar.inc(1))
+                    .map_err(|e| {
+                    if e.is_bad_input() { anyhow::Error::new(BadInput(format!("{origin}: {e}"))) } else { e.into() }
+                })?;
             bar.finish();
             families::write_to_dir(&report, output.staging())?;
             output.commit()?;

@@ -742,8 +742,12 @@ pub use crate::abc::{ObservedData, load_observed};
 
 /// Replaces the scenario's samples by the observed sampling design (`--like`): one sample
 /// group per (deme, time) with the observed number of sequences.
-pub fn like(raw: &mut crate::scenario::RawScenario, observed: &ObservedData, origin: &str) -> Result<()> {
-    anyhow::ensure!(!observed.design.is_empty(), "{origin}: the observed data have no sampling design");
+pub fn like(raw: &mut crate::scenario::RawScenario, observed: &ObservedData, _origin: &str) -> Result<()> {
+    anyhow::ensure!(
+        !observed.design.is_empty(),
+        "--like {}: the observed data have no sampling design (`design`, as written by `seedline observe`)",
+        observed.origin
+    );
     let loc = serde_saphyr::Location::UNKNOWN;
     raw.samples = observed
         .design

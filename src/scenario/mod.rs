@@ -281,7 +281,8 @@ fn key_before(line: &str, col: usize) -> Option<String> {
 
 /// The parser's words for a type mismatch, in the scenario's terms.
 fn humanise(raw: &str) -> String {
-    let rules: [(&str, &str); 9] = [
+    let rules: [(&str, &str); 10] = [
+        ("non-finite float", "a finite number is needed (.nan and .inf are not allowed)"),
         (
             "untagged enum RawSize",
             "`size` must be a number of individuals or a list of epochs [{generations_ago: ..., size: ..., growth: ...}]",
