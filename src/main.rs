@@ -708,6 +708,9 @@ fn validate(files: &[PathBuf]) -> Result<()> {
         match read_input(p)? {
             Input::Scenario(s, origin) => {
                 out!("{origin}: valid\n{s}\n")?;
+                if let Some(n) = seedline::cost::forest_note(&s) {
+                    out!("note: {n}\n")?;
+                }
                 hypotheses.push(seedline::abc::load_hypothesis(p, &origin)?);
             }
             Input::Hypothesis(h) => {

@@ -1007,7 +1007,10 @@ pub fn render_test(r: &TestReport) -> String {
 
 /// Writes `test.tsv`, `test.json` and one SVG histogram per statistic into `dir`.
 pub fn write_test(r: &TestReport, null: &NullTable, dir: &Path) -> Result<()> {
-    fs::create_dir_all(dir.join("figures"))?;
+    let figures = dir.join("figures");
+    fs::create_dir_all(&figures).with_context(|| format!("cannot create directory {}", figures.display()))?;
+    let write_atomic =
+        |p: &Path, bytes: &[u8]| write_atomic(p, bytes).with_context(|| format!("cannot write {}", p.display()));
     let mut tsv =
         String::from("statistic\tobserved\tnull_replicates\tnull_mean\tnull_low_2.5\tnull_high_97.5\tp_value\n");
     for t in &r.statistics {
