@@ -175,16 +175,10 @@ pub fn claim(dir: &Path, command: &str, force: bool, own: &dyn Fn(&str) -> bool)
         return Ok(claimed);
     }
     let mut foreign = Vec::new();
-    let mut files = Vec::new();
-    list_files(dir, "", &mut files).map_err(unwritable("list", dir))?;
-    for f in files {
-        if f == MANIFEST || f == JOURNAL || claimed.ours.contains(&f) || own(&f) {
-            continue;
-        }
-        foreign.push(f);
-    }
+    let is_ours = |f: &str| f == MANIFEST || f == JOURNAL || claimed.ours.contains(f) || own(f);
+    find_foreign(dir, "", &is_ours, &mut foreign).map_err(unwritable("list", dir))?;
     if !foreign.is_empty() {
-        let more = if foreign.len() > 3 { format!(" and {} more", foreign.len() - 3) } else { String::new() };
+        let more = if foreign.len() > 3 { ", ..." } else { "" };
         let examples = format!("{}{more}", foreign.iter().take(3).cloned().collect::<Vec<_>>().join(", "));
         return Err(OutputError::Foreign { dir: dir.to_path_buf(), examples });
     }
@@ -213,6 +207,28 @@ fn is_temporary(name: &str) -> bool {
 
 fn staging_name() -> String {
     format!("{STAGING_PREFIX}{}", std::process::id())
+}
+
+/// Files below `dir` that are not ours, stopping after four (a mistaken `--out ~` must not
+/// walk a whole home directory).
+fn find_foreign(dir: &Path, prefix: &str, ours: &dyn Fn(&str) -> bool, out: &mut Vec<String>) -> io::Result<()> {
+    for entry in fs::read_dir(dir)? {
+        if out.len() > 3 {
+            return Ok(());
+        }
+        let entry = entry?;
+        let name = entry.file_name().to_string_lossy().into_owned();
+        if prefix.is_empty() && name.starts_with(STAGING_PREFIX) {
+            continue;
+        }
+        let rel = if prefix.is_empty() { name } else { format!("{prefix}/{name}") };
+        if entry.file_type()?.is_dir() {
+            find_foreign(&entry.path(), &rel, ours, out)?;
+        } else if !ours(&rel) {
+            out.push(rel);
+        }
+    }
+    Ok(())
 }
 
 /// Every file below `dir` (not the staging directories), as `/`-separated relative paths.
