@@ -299,17 +299,16 @@ impl<'a> ApproxModel<'a> {
             .epochs()
             .iter()
             .map(|ep| {
-                let m = ep.matrix();
-                let mut out = Vec::with_capacity(m.len());
-                let mut rows = Vec::with_capacity(m.len());
-                for (d, row) in m.iter().enumerate() {
-                    let lr = demes[d].link_rate();
+                let n = ep.n_demes();
+                let mut out = Vec::with_capacity(n);
+                let mut rows = Vec::with_capacity(n);
+                for (d, model) in demes.iter().enumerate().take(n) {
+                    let lr = model.link_rate();
                     let mut acc = 0.0;
-                    let cum: Vec<(f64, usize)> = row
+                    let cum: Vec<(f64, usize)> = ep
+                        .row(d)
                         .iter()
-                        .enumerate()
-                        .filter(|&(e, &p)| e != d && p > 0.0)
-                        .map(|(e, &p)| {
+                        .map(|&(e, p)| {
                             acc += p * lr;
                             (acc, e)
                         })

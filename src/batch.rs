@@ -61,6 +61,16 @@ pub enum Error {
     Sink(#[from] anyhow::Error),
 }
 
+impl Error {
+    /// The error the sink returned, when the batch stopped for that reason.
+    pub fn sink_error(&self) -> Option<&anyhow::Error> {
+        match self {
+            Error::Sink(e) => Some(e),
+            Error::Threads { .. } => None,
+        }
+    }
+}
+
 /// Runs `per_replicate` for every replicate index of `replicates`, in parallel, and pushes
 /// the results to `sink` in the order of `replicates`.
 ///

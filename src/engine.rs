@@ -86,6 +86,10 @@ impl Simulator {
                 }
             }
         }
+        // Lineages that can never meet (no migration path between their demes) stop as soon
+        // as nothing else is left to merge, instead of walking to the horizon: checked at the
+        // start, after every merge and when a migration epoch ends.
+        let mut check_at = if model.reach { 0 } else { u64::MAX };
         while let Some(&Reverse(top)) = self.heap.peek() {
             if self.heap.len() == 1 {
                 self.heap.pop();
@@ -94,17 +98,53 @@ impl Simulator {
             }
             self.heap.pop();
             let (time, deme) = model.split(top.key);
+            if time >= check_at {
+                if self.all_apart(&model, top) {
+                    g.add_root(top.node);
+                    for Reverse(e) in self.heap.drain() {
+                        g.add_root(e.node);
+                    }
+                    break;
+                }
+                check_at = model.scenario.migration().next_epoch_start(time);
+            }
             // Hot path: a lone arrival on its generation takes a new individual, no draw needed.
             if !top.sample && self.heap.peek().is_none_or(|Reverse(e)| e.key != top.key) {
                 steps += self.step(&model, &mut g, top.node, top.jumps, time, deme, rng);
                 continue;
             }
             pop_group(&mut self.heap, top, |e| e.key, &mut self.group);
+            let before = self.group.len();
             steps += self.seat_group(&model, &mut g, time, deme, rng);
+            if model.reach && self.next.len() < before {
+                check_at = 0;
+            }
         }
         g.sort_roots();
         g.set_steps(steps);
         g
+    }
+
+    /// Whether no two of the queued lineages (and `top`) can ever meet. Only asked with few
+    /// lineages left: with many, some pair surely can.
+    fn all_apart(&self, model: &Model, top: Entry) -> bool {
+        const MAX_CHECKED: usize = 64;
+        if self.heap.len() >= MAX_CHECKED {
+            return false;
+        }
+        let migration = model.scenario.migration();
+        let at = |e: &Entry| model.split(e.key);
+        let mut live: Vec<(u64, usize)> = Vec::with_capacity(self.heap.len() + 1);
+        live.push(at(&top));
+        live.extend(self.heap.iter().map(|Reverse(e)| at(e)));
+        for (i, &(t1, d1)) in live.iter().enumerate() {
+            for &(t2, d2) in &live[i + 1..] {
+                if migration.may_meet(d1, t1, d2, t2) {
+                    return false;
+                }
+            }
+        }
+        true
     }
 
     /// Seats every lineage of one (deme, generation) and continues the resulting individuals.
@@ -371,6 +411,8 @@ struct Model<'a> {
     n_demes: u64,
     horizon: u64,
     migrates: bool,
+    /// Whether lineages of different demes may be unable to ever meet (checked then).
+    reach: bool,
 }
 
 impl<'a> Model<'a> {
@@ -389,6 +431,7 @@ impl<'a> Model<'a> {
             n_demes: demes.len() as u64,
             horizon: scenario.horizon(),
             migrates: scenario.migration().is_active(),
+            reach: demes.len() > 1 && scenario.migration().has_reachability(),
         }
     }
 

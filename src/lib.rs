@@ -27,6 +27,7 @@ pub mod abc;
 pub mod approx;
 pub mod arg;
 pub mod batch;
+pub mod cost;
 pub mod demography;
 pub mod dormancy;
 pub mod engine;

@@ -17,13 +17,30 @@ const EXAMPLES: &str = "Examples:
   seedline compare observed.json --hypotheses h-none.yaml h-pareto.yaml --simulations 2000 --out abc
   seedline design --null h-none.yaml --alternative h-pareto.yaml --designs designs.yaml --out power
 
-Exit codes: 0 success, 2 bad input (scenario or flags), 1 any other failure.";
+Every command that writes --out stages its files and swaps them in when complete; it refuses a
+directory holding files it did not write unless --force. Progress goes to stderr (a bar on a
+terminal, a line every ~10 s otherwise); --quiet silences it.
+
+Exit codes: 0 success (also when the output pipe is closed early), 2 bad input (scenario, data,
+flags or --out), 1 any other failure.";
 
 #[derive(Parser)]
 #[command(name = "seedline", version, about = "Exact genealogies and diversity under dormancy (seed banks, spores, resting eggs)", after_help = EXAMPLES)]
 struct Cli {
     #[command(subcommand)]
     command: Command,
+    /// Print no progress and no notes on stderr (errors still go there)
+    #[arg(long, short, global = true)]
+    quiet: bool,
+}
+
+/// `--out` may name a directory that holds files seedline did not write.
+#[derive(clap::Args, Clone, Copy)]
+struct Force {
+    /// Write into --out even if it holds files seedline did not write (they are kept; same-named
+    /// ones are replaced) or the output of another command (replaced)
+    #[arg(long)]
+    force: bool,
 }
 
 #[derive(Subcommand)]
@@ -38,6 +55,8 @@ enum Command {
         /// Output directory
         #[arg(long, default_value = "seedline-out")]
         out: PathBuf,
+        #[command(flatten)]
+        force: Force,
         /// Also write vcf/replicate_<i>.vcf (needs a mutation model)
         #[arg(long)]
         vcf: bool,
@@ -52,9 +71,10 @@ enum Command {
         engine: seedline::approx::EngineChoice,
     },
     /// Print what published theory predicts for the scenario, and why where nothing applies
+    /// (for a hypothesis file: at the median of every prior)
     #[command(after_help = EXAMPLES)]
     Predict {
-        /// Scenario file (YAML); the embedded demo when omitted
+        /// Scenario or hypothesis file (YAML); the embedded demo when omitted
         scenario: Option<PathBuf>,
         /// Print JSON instead of text
         #[arg(long)]
@@ -79,6 +99,8 @@ enum Command {
         /// Output directory for observed.json, observed.tsv, sfs.tsv
         #[arg(long, default_value = "seedline-observed")]
         out: PathBuf,
+        #[command(flatten)]
+        force: Force,
         /// Project every site with at least M called sequences to M (hypergeometric)
         #[arg(long, value_name = "M", conflicts_with = "drop_missing")]
         project: Option<u32>,
@@ -97,6 +119,8 @@ enum Command {
         /// Output directory
         #[arg(long, default_value = "seedline-families")]
         out: PathBuf,
+        #[command(flatten)]
+        force: Force,
         /// Law of the family types: pm1 (±1) or normal
         #[arg(long, default_value = "pm1", value_parser = ["pm1", "normal"])]
         colours: String,
@@ -115,6 +139,8 @@ enum Command {
         /// Output directory (rerun the same command in it to resume)
         #[arg(long, default_value = "seedline-null")]
         out: PathBuf,
+        #[command(flatten)]
+        force: Force,
         /// Take the sample sizes per deme and time from an `observe` result
         #[arg(long, value_name = "OBSERVED.json")]
         like: Option<PathBuf>,
@@ -142,6 +168,8 @@ enum Command {
         /// Output directory
         #[arg(long)]
         out: PathBuf,
+        #[command(flatten)]
+        force: Force,
     },
     /// Test observed statistics against a null distribution
     Test {
@@ -153,6 +181,8 @@ enum Command {
         /// Output directory for test.tsv, test.json and figures/
         #[arg(long, default_value = "seedline-test")]
         out: PathBuf,
+        #[command(flatten)]
+        force: Force,
     },
     /// ABC model choice between hypothesis files (priors allowed) and parameter estimation
     #[command(after_help = EXAMPLES)]
@@ -180,6 +210,8 @@ enum Command {
         /// Output directory
         #[arg(long, default_value = "seedline-compare")]
         out: PathBuf,
+        #[command(flatten)]
+        force: Force,
     },
     /// Power of candidate sampling designs to reject a null hypothesis, and the cheapest reaching a target
     #[command(after_help = EXAMPLES)]
@@ -217,12 +249,15 @@ enum Command {
         /// Output directory
         #[arg(long, default_value = "seedline-design")]
         out: PathBuf,
+        #[command(flatten)]
+        force: Force,
     },
-    /// Check a scenario file and print it as parsed, without simulating
+    /// Check scenario, hypothesis (priors) and design files and print them as parsed, without
+    /// simulating; designs are checked against the hypothesis files given with them
     #[command(after_help = EXAMPLES)]
     Validate {
-        /// Scenario file (YAML); the embedded demo when omitted
-        scenario: Option<PathBuf>,
+        /// Scenario, hypothesis or design files (YAML); the embedded demo when omitted
+        files: Vec<PathBuf>,
     },
 }
 
@@ -267,6 +302,22 @@ impl RunArgs {
 #[error("{0}")]
 struct BadInput(String);
 
+/// Writes to stdout like `print!`, but returns the error (a closed pipe) instead of panicking.
+macro_rules! out {
+    ($($arg:tt)*) => {
+        std::io::Write::write_fmt(&mut std::io::stdout(), format_args!($($arg)*))
+    };
+}
+
+/// Writes a line to stderr, ignoring a closed stderr.
+macro_rules! note {
+    ($($arg:tt)*) => {{
+        let _ = writeln!(std::io::stderr(), $($arg)*);
+    }};
+}
+
+use std::io::Write as _;
+
 fn main() -> ExitCode {
     let cli = match Cli::try_parse() {
         Ok(c) => c,
@@ -282,60 +333,142 @@ fn main() -> ExitCode {
             if is_broken_pipe(&e) {
                 return ExitCode::SUCCESS;
             }
-            eprintln!("error: {e:#}");
-            let bad_input = e.chain().any(|c| {
-                c.is::<BadInput>()
-                    || c.is::<scenario::Error>()
-                    || c.is::<seedline::observed::Error>()
-                    || c.is::<seedline::approx::ApproxError>()
-                    || c.is::<seedline::null::SettingsMismatch>()
-                    || c.is::<seedline::null::LayoutMismatch>()
-                    || c.downcast_ref::<seedline::abc::Error>().is_some_and(|a| a.is_bad_input())
-            });
-            ExitCode::from(if bad_input { 2 } else { 1 })
+            note!("error: {e:#}");
+            ExitCode::from(if is_bad_input(&e) { 2 } else { 1 })
         }
     }
+}
+
+/// Whether an error (anywhere in its chain) is the user's input being wrong.
+fn is_bad_input(e: &anyhow::Error) -> bool {
+    e.chain().any(|c| {
+        c.is::<BadInput>()
+            || c.is::<scenario::Error>()
+            || c.is::<seedline::observed::Error>()
+            || c.is::<seedline::approx::ApproxError>()
+            || c.is::<seedline::null::SettingsMismatch>()
+            || c.is::<seedline::null::LayoutMismatch>()
+            || c.is::<seedline::null::NullError>()
+            || c.is::<seedline::mutation::Error>()
+            || c.is::<seedline::cost::Refusal>()
+            || c.downcast_ref::<seedline::report::output::OutputError>().is_some_and(|o| o.is_bad_input())
+            || c.downcast_ref::<seedline::abc::Error>().is_some_and(|a| a.is_bad_input())
+            || c.downcast_ref::<seedline::batch::Error>().and_then(|b| b.sink_error()).is_some_and(is_bad_input)
+    })
 }
 
 fn is_broken_pipe(e: &anyhow::Error) -> bool {
     e.chain().any(|c| c.downcast_ref::<std::io::Error>().is_some_and(|io| io.kind() == std::io::ErrorKind::BrokenPipe))
 }
 
+/// Everything a run's preamble needs: progress mode and whether to print notes.
+#[derive(Clone, Copy)]
+struct Ui {
+    quiet: bool,
+}
+
+impl Ui {
+    fn progress(&self, label: &str, unit: &str, total: u64) -> Progress {
+        Progress::new(label, unit, total, seedline::report::progress::Mode::detect(self.quiet))
+    }
+
+    fn notes(&self, notes: &[String]) {
+        if !self.quiet {
+            for n in notes {
+                note!("note: {n}");
+            }
+        }
+    }
+}
+
+use seedline::report::output::Output;
+use seedline::report::progress::Progress;
+
+/// Memory available to this process, from /proc/meminfo (Linux); `None` elsewhere.
+fn available_memory() -> Option<u64> {
+    std::fs::read_to_string("/proc/meminfo").ok().and_then(|t| seedline::cost::parse_meminfo(&t))
+}
+
+fn worker_threads(threads: usize) -> usize {
+    if threads > 0 { threads } else { std::thread::available_parallelism().map_or(1, |n| n.get()) }
+}
+
+/// Notes (and refusals) before running `scenario` with the engine that will run it.
+fn preflight(scenario: &Scenario, origin: &str, exact: bool, threads: usize, ui: Ui) -> Result<()> {
+    let notes = seedline::cost::preflight(scenario, origin, exact, worker_threads(threads), available_memory())?;
+    ui.notes(&notes);
+    Ok(())
+}
+
 fn run(cli: Cli) -> Result<()> {
+    let ui = Ui { quiet: cli.quiet };
     match cli.command {
-        Command::Simulate { scenario, run, out, vcf, diploid, loci_table, engine } => {
+        Command::Simulate { scenario, run, out, force, vcf, diploid, loci_table, engine } => {
             let (scenario, origin) = run.scenario(scenario.as_deref())?;
-            let bar = progress_bar(scenario.replicates());
+            if vcf && scenario.mutation().is_none() {
+                return Err(BadInput(format!(
+                    "{origin}: --vcf needs a mutation model: add `mutation: {{rate: ..., sites: ...}}` to the scenario"
+                ))
+                .into());
+            }
+            let decision = seedline::approx::resolve(engine, &scenario)?;
+            let exact = decision.kind == seedline::approx::EngineKind::Exact;
+            preflight(&scenario, &origin, exact, run.threads, ui)?;
+            let output = Output::begin(&out, "simulate", force.force)?;
+            let bar = ui.progress("simulate", "replicates", scenario.replicates());
             let summary = seedline::report::simulate_to_dir(
                 &scenario,
                 &origin,
                 run.batch(),
                 seedline::report::SimulateOptions { vcf, diploid, loci_table, engine },
-                &out,
+                output.staging(),
                 &|| bar.inc(1),
             )?;
-            bar.finish_and_clear();
-            print!("{}", seedline::report::render_summary(&summary));
-            print!("{}", seedline::report::render_comparison(&summary.comparison));
-            println!("engine: {}", summary.engine.reason);
+            bar.finish();
+            output.commit()?;
+            out!("{}", seedline::report::render_summary(&summary))?;
+            out!("{}", seedline::report::render_comparison(&summary.comparison))?;
+            out!("engine: {}\n", summary.engine.reason)?;
             for note in &summary.notes {
-                println!("note: {note}");
+                out!("note: {note}\n")?;
             }
-            println!("wrote results to {}", out.display());
+            out!("wrote results to {}\n", out.display())?;
             Ok(())
         }
         Command::Predict { scenario, json } => {
-            let (raw, origin) = load_raw(scenario.as_deref())?;
-            let scenario = Scenario::from_raw(raw, &origin)?;
-            let p = seedline::theory::predict::predict(&scenario);
+            let (scenario, notes) = match scenario.as_deref() {
+                Some(p) => match read_input(p)? {
+                    Input::Scenario(s, _) => (s, Vec::new()),
+                    Input::Hypothesis(h) => {
+                        let medians: Vec<f64> = h.priors.iter().map(|p| p.median()).collect();
+                        let s = h.scenario_with(&medians)?;
+                        let at: Vec<String> =
+                            h.priors.iter().zip(&medians).map(|(p, m)| format!("{} = {m}", p.path)).collect();
+                        (s, vec![format!("{}: predictions at the median of every prior: {}", h.origin, at.join(", "))])
+                    }
+                    Input::Designs(..) => {
+                        return Err(BadInput(format!(
+                            "{}: a designs file has no scenario to predict from; give a scenario or hypothesis file",
+                            p.display()
+                        ))
+                        .into());
+                    }
+                },
+                None => {
+                    let (raw, origin) = load_raw(None)?;
+                    (Scenario::from_raw(raw, &origin)?, Vec::new())
+                }
+            };
+            let mut p = seedline::theory::predict::predict(&scenario);
+            p.notes.extend(notes);
             if json {
-                println!("{}", serde_json::to_string_pretty(&p.to_json())?);
+                out!("{}\n", serde_json::to_string_pretty(&p.to_json())?)?;
             } else {
-                print!("{}", seedline::report::render_prediction(&scenario, &p));
+                out!("{}", seedline::report::render_prediction(&scenario, &p))?;
             }
             Ok(())
         }
-        Command::Observe { data, samples, windows, regions, mask, out, project, drop_missing } => {
+        Command::Observe { data, samples, windows, regions, mask, out, force, project, drop_missing } => {
             use seedline::observed::{self, Missing};
             let missing = match (project, drop_missing) {
                 (Some(m), _) => Missing::Project(m),
@@ -343,35 +476,58 @@ fn run(cli: Cli) -> Result<()> {
                 (None, false) => Missing::Refuse,
             };
             let options = observed::Options::from_files(missing, windows, regions.as_deref(), mask.as_deref())?;
+            let output = Output::begin(&out, "observe", force.force)?;
             let obs = observed::observe_files_with(&data, &samples, &options)?;
-            observed::write_outputs(&obs, &out).with_context(|| format!("writing into {}", out.display()))?;
+            observed::write_outputs(&obs, output.staging())
+                .with_context(|| format!("cannot write into {}", output.staging().display()))?;
+            output.commit()?;
             let wrote = observed::OBSERVE_FILES.map(|f| out.join(f).display().to_string()).join(", ");
-            // Through write_all so that a closed pipe is an error, not a panic.
-            std::io::Write::write_all(
-                &mut std::io::stdout(),
-                format!("{}wrote {wrote}\n", observed::render(&obs)).as_bytes(),
-            )?;
+            out!("{}wrote {wrote}\n", observed::render(&obs))?;
             Ok(())
         }
-        Command::Families { scenario, run, out, colours } => {
+        Command::Families { scenario, run, out, force, colours } => {
             use seedline::families::{self, Colours, Options};
             let (scenario, origin) = run.scenario(Some(&scenario))?;
+            preflight(&scenario, &origin, true, run.threads, ui)?;
             let colours = if colours == "normal" { Colours::Normal } else { Colours::Pm1 };
-            let bar = progress_bar(scenario.replicates());
+            let output = Output::begin(&out, "families", force.force)?;
+            let bar = ui.progress("families", "replicates", scenario.replicates());
             let config = run.batch();
-            let report = families::run(&scenario, &origin, config, &Options { colours, ..Options::default() }, &|| {
-                bar.inc(1)
-            })
-            .map_err(|e| if e.is_bad_input() { anyhow::Error::new(BadInput(e.to_string())) } else { e.into() })?;
-            bar.finish_and_clear();
-            families::write_to_dir(&report, &out)?;
-            print!("{}", families::render_summary(&report));
-            println!("wrote {}", families::FILES.map(|f| out.join(f).display().to_string()).join(", "));
+            let report =
+                families::run(&scenario, &origin, config, &Options { colours, ..Options::default() }, &|| bar.inc(1))
+                    .map_err(|e| {
+                    if e.is_bad_input() { anyhow::Error::new(BadInput(format!("{origin}: {e}"))) } else { e.into() }
+                })?;
+            bar.finish();
+            families::write_to_dir(&report, output.staging())?;
+            output.commit()?;
+            out!("{}", families::render_summary(&report))?;
+            out!("wrote {}\n", families::FILES.map(|f| out.join(f).display().to_string()).join(", "))?;
             Ok(())
         }
-        Command::Null { scenario, replicates, shard, out, like, condition_on_s, chunk, max_chunks, seed, threads } => {
+        Command::Null {
+            scenario,
+            replicates,
+            shard,
+            out,
+            force,
+            like,
+            condition_on_s,
+            chunk,
+            max_chunks,
+            seed,
+            threads,
+        } => {
             use seedline::null;
             let shard = null::parse_shard(&shard).map_err(|e| BadInput(format!("{e:#}")))?;
+            let probe = null::NullConfig {
+                replicates,
+                shard,
+                chunk,
+                count: seedline::mutation::Count::Poisson,
+                max_new_chunks: max_chunks,
+            };
+            probe.check()?;
             let (mut raw, origin) = load_raw(Some(&scenario))?;
             raw.seed = seed.or(raw.seed);
             let observed = match &like {
@@ -384,13 +540,16 @@ fn run(cli: Cli) -> Result<()> {
                 let loci = o.layout().map_or(String::new(), |l| {
                     format!(" and its {} loci ({} callable sites in all)", l.len(), l.iter().sum::<u64>())
                 });
-                println!(
-                    "--like {}: simulating the observed design, {seqs} sequences (haploid genomes) in {} deme/time groups{loci}",
+                out!(
+                    "--like {}: simulating the observed design, {seqs} sequences (haploid genomes) in {} deme/time groups{loci}\n",
                     o.origin,
                     o.design.len()
-                );
+                )?;
             }
             let scenario = Scenario::from_raw(raw, &origin)?;
+            if scenario.mutation().is_none() {
+                return Err(anyhow::Error::new(null::NullError::NoMutationModel).context(origin));
+            }
             let count = match (&observed, condition_on_s) {
                 (Some(o), true) => {
                     let s = o.value("segregating_sites");
@@ -399,52 +558,60 @@ fn run(cli: Cli) -> Result<()> {
                 }
                 _ => seedline::mutation::Count::Poisson,
             };
-            let cfg = null::NullConfig { replicates, shard, chunk, count, max_new_chunks: max_chunks };
-            let shard_reps = (0..replicates).filter(|i| i % shard.1 == shard.0).count() as u64;
-            let bar = progress_bar(shard_reps);
-            let report = null::run(&scenario, cfg, BatchConfig { threads, ..BatchConfig::default() }, &out, &|d| {
-                bar.set_position(d)
-            })?;
-            bar.finish_and_clear();
-            println!(
-                "{} of {} chunks complete in {} ({} resumed, {} written now); shard {}/{} holds {} replicates",
+            preflight(&scenario, &origin, true, threads, ui)?;
+            null::claim_dir(&out, force.force)?;
+            let cfg = null::NullConfig { count, ..probe };
+            let bar = ui.progress("null", "replicates", cfg.shard_replicates());
+            let report =
+                null::run(&scenario, cfg, BatchConfig { threads, ..BatchConfig::default() }, &out, &|d| bar.set(d))?;
+            bar.finish();
+            for r in &report.redone {
+                note!("note: redone: {r}");
+            }
+            out!(
+                "{} of {} chunks complete in {} ({} resumed, {} written now{}); shard {}/{} holds {} replicates\n",
                 report.resumed_chunks + report.written_chunks,
                 report.total_chunks,
                 out.display(),
                 report.resumed_chunks,
                 report.written_chunks,
+                if report.redone.is_empty() { String::new() } else { format!(", {} redone", report.redone.len()) },
                 shard.0,
                 shard.1,
                 report.shard_replicates
-            );
+            )?;
             Ok(())
         }
-        Command::Merge { dirs, out } => {
-            let n = seedline::null::merge(&dirs, &out).map_err(|e| BadInput(format!("{e:#}")))?;
-            println!("merged {n} replicates into {}", out.join("null.tsv").display());
+        Command::Merge { dirs, out, force } => {
+            let output = Output::begin(&out, "merge", force.force)?;
+            let n = seedline::null::merge(&dirs, output.staging())?;
+            output.commit()?;
+            out!("merged {n} replicates into {}\n", out.join("null.tsv").display())?;
             Ok(())
         }
-        Command::Test { observed, null, out } => {
+        Command::Test { observed, null, out, force } => {
             use seedline::null as nl;
             let obs = nl::load_observed(&observed).map_err(|e| BadInput(format!("{e:#}")))?;
-            let table = nl::load(&null).map_err(|e| BadInput(format!("{e:#}")))?;
+            let table = nl::load(&null)?;
             let report = nl::test(&obs, &table)?;
-            nl::write_test(&report, &table, &out)?;
-            print!("{}", nl::render_test(&report));
+            let output = Output::begin(&out, "test", force.force)?;
+            nl::write_test(&report, &table, output.staging())?;
+            output.commit()?;
+            out!("{}", nl::render_test(&report))?;
             let loci = if report.loci.is_empty() {
                 String::new()
             } else {
                 format!(", {}", out.join(nl::LOCI_TEST_FILE).display())
             };
-            println!(
-                "wrote {}, {}{loci}, {}",
+            out!(
+                "wrote {}, {}{loci}, {}\n",
                 out.join("test.tsv").display(),
                 out.join("test.json").display(),
                 out.join("figures").display()
-            );
+            )?;
             Ok(())
         }
-        Command::Compare { observed, hypotheses, simulations, tolerance, statistics, adjust, threads, out } => {
+        Command::Compare { observed, hypotheses, simulations, tolerance, statistics, adjust, threads, out, force } => {
             use seedline::abc::{self, compare};
             let obs = abc::load_observed(&observed)?;
             let files: Vec<String> = hypotheses.iter().map(|p| p.display().to_string()).collect();
@@ -454,14 +621,19 @@ fn run(cli: Cli) -> Result<()> {
                 .zip(&names)
                 .map(|(p, n)| abc::load_hypothesis(p, n))
                 .collect::<Result<Vec<_>, _>>()?;
+            for h in &hyps {
+                preflight_hypothesis(h, threads, ui)?;
+            }
             let adjust = if adjust == "logistic" { compare::Adjust::Logistic } else { compare::Adjust::None };
             let opts = compare::CompareOptions { simulations, tolerance, statistics, adjust, threads };
-            let bar = progress_bar(simulations * hyps.len() as u64);
+            let output = Output::begin(&out, "compare", force.force)?;
+            let bar = ui.progress("compare", "simulations", simulations.saturating_mul(hyps.len() as u64));
             let result = compare::run(&obs, hyps, opts, &|| bar.inc(1))?;
-            bar.finish_and_clear();
-            compare::write(&result, &out)?;
-            print!("{}", compare::render(&result));
-            println!("wrote results to {}", out.display());
+            bar.finish();
+            compare::write(&result, output.staging())?;
+            output.commit()?;
+            out!("{}", compare::render(&result))?;
+            out!("wrote results to {}\n", out.display())?;
             Ok(())
         }
         Command::Design {
@@ -476,6 +648,7 @@ fn run(cli: Cli) -> Result<()> {
             like,
             threads,
             out,
+            force,
         } => {
             use seedline::abc::{self, design};
             let layout = match &like {
@@ -496,28 +669,146 @@ fn run(cli: Cli) -> Result<()> {
             let names = abc::unique_names(&[null.display().to_string(), alternative.display().to_string()]);
             let h0 = abc::load_hypothesis(&null, &names[0])?;
             let h1 = abc::load_hypothesis(&alternative, &names[1])?;
+            for h in [&h0, &h1] {
+                preflight_hypothesis(h, threads, ui)?;
+            }
             let origin = designs.display().to_string();
             let text = std::fs::read_to_string(&designs)
                 .map_err(|e| BadInput(format!("cannot read designs file {origin}: {e}")))?;
             let file = design::parse_designs(&text, &origin)?;
             let opts =
                 design::DesignOptions { level, target, replicates, power_replicates, statistics, threads, layout };
-            let bar = progress_bar((replicates + power_replicates) * file.designs.len() as u64);
+            let output = Output::begin(&out, "design", force.force)?;
+            let total = replicates.saturating_add(power_replicates).saturating_mul(file.designs.len() as u64);
+            let bar = ui.progress("design", "datasets", total);
             let result = design::run(&h0, &h1, &file, opts, &|| bar.inc(1))?;
-            bar.finish_and_clear();
-            design::write(&result, &out)?;
-            print!("{}", design::render(&result));
-            println!("wrote results to {}", out.display());
+            bar.finish();
+            design::write(&result, output.staging())?;
+            output.commit()?;
+            out!("{}", design::render(&result))?;
+            out!("wrote results to {}\n", out.display())?;
             Ok(())
         }
-        Command::Validate { scenario } => {
-            let (raw, origin) = load_raw(scenario.as_deref())?;
-            let scenario = Scenario::from_raw(raw, &origin)?;
-            println!("{origin}: valid");
-            println!("{scenario}");
-            Ok(())
+        Command::Validate { files } => validate(&files),
+    }
+}
+
+/// Refusals and notes for a hypothesis at both ends of its priors (the costlier end decides).
+fn preflight_hypothesis(h: &seedline::abc::Hypothesis, threads: usize, ui: Ui) -> Result<()> {
+    let mut notes = Vec::new();
+    for u in [0.0, 1.0] {
+        let values: Vec<f64> = h.priors.iter().map(|p| p.quantile(u)).collect();
+        let s = h.scenario_with(&values)?;
+        // Hypotheses run on the exact engine.
+        for n in seedline::cost::preflight(&s, &h.origin, true, worker_threads(threads), available_memory())? {
+            if !notes.contains(&n) {
+                notes.push(n);
+            }
+        }
+        if h.priors.is_empty() {
+            break;
         }
     }
+    ui.notes(&notes);
+    Ok(())
+}
+
+/// A file given to `validate` or `predict`, recognised by its content.
+enum Input {
+    /// A plain scenario (no priors), with its file name.
+    Scenario(Scenario, String),
+    /// A scenario with priors.
+    Hypothesis(seedline::abc::Hypothesis),
+    /// A designs file (top-level `designs:`), with its text.
+    Designs(seedline::abc::design::DesignFile),
+}
+
+fn read_input(path: &Path) -> Result<Input> {
+    let origin = path.display().to_string();
+    let text = std::fs::read_to_string(path).map_err(|e| BadInput(format!("cannot read {origin}: {e}")))?;
+    let value: Option<serde_json::Value> = serde_saphyr::from_str(&text).ok();
+    let top = value.as_ref().and_then(|v| v.as_object());
+    if top.is_some_and(|m| m.contains_key("designs")) {
+        return Ok(Input::Designs(seedline::abc::design::parse_designs(&text, &origin)?));
+    }
+    if value.as_ref().is_some_and(seedline::abc::prior::has_priors) {
+        let name = seedline::abc::unique_names(std::slice::from_ref(&origin)).remove(0);
+        return Ok(Input::Hypothesis(seedline::abc::Hypothesis::from_yaml_str(&text, &origin, &name)?));
+    }
+    let raw = scenario::parse_raw(&text, &origin)?;
+    Ok(Input::Scenario(Scenario::from_raw(raw, &origin)?, origin))
+}
+
+/// `validate`: every file checked; designs checked against every hypothesis given with them.
+fn validate(files: &[PathBuf]) -> Result<()> {
+    if files.is_empty() {
+        let (raw, origin) = load_raw(None)?;
+        let scenario = Scenario::from_raw(raw, &origin)?;
+        out!("{origin}: valid\n{scenario}\n")?;
+        return Ok(());
+    }
+    let mut hypotheses = Vec::new();
+    let mut designs = Vec::new();
+    for p in files {
+        match read_input(p)? {
+            Input::Scenario(s, origin) => {
+                out!("{origin}: valid\n{s}\n")?;
+                if let Some(n) = seedline::cost::forest_note(&s) {
+                    out!("note: {n}\n")?;
+                }
+                hypotheses.push(seedline::abc::load_hypothesis(p, &origin)?);
+            }
+            Input::Hypothesis(h) => {
+                out!(
+                    "{}: valid hypothesis with {} prior(s), checked at both ends of every prior\n",
+                    h.origin,
+                    h.priors.len()
+                )?;
+                for pr in &h.priors {
+                    let kind = match pr.kind {
+                        seedline::abc::PriorKind::Uniform => "uniform",
+                        seedline::abc::PriorKind::LogUniform => "log_uniform",
+                    };
+                    out!(
+                        "  {}: {kind} [{}, {}]{}\n",
+                        pr.path,
+                        pr.low,
+                        pr.high,
+                        if pr.integer { ", rounded" } else { "" }
+                    )?;
+                }
+                let medians: Vec<f64> = h.priors.iter().map(|p| p.median()).collect();
+                out!("at the median of every prior:\n{}\n", h.scenario_with(&medians)?)?;
+                hypotheses.push(h);
+            }
+            Input::Designs(d) => designs.push((p.display().to_string(), d)),
+        }
+    }
+    for (origin, file) in &designs {
+        for d in &file.designs {
+            for h in &hypotheses {
+                let h = h.with_design(&d.samples, d.sites, d.loci).map_err(|e| {
+                    BadInput(format!(
+                        "{origin}: design `{}` with {}: {}",
+                        d.name,
+                        h.origin,
+                        seedline::abc::full_message(&e)
+                    ))
+                })?;
+                h.example()?;
+            }
+        }
+        let against = if hypotheses.is_empty() {
+            " (give hypothesis files with it to check its samples against them)".to_string()
+        } else {
+            format!(
+                ", each design checked against {}",
+                hypotheses.iter().map(|h| h.origin.as_str()).collect::<Vec<_>>().join(", ")
+            )
+        };
+        out!("{origin}: valid designs file with {} design(s){against}\n", file.designs.len())?;
+    }
+    Ok(())
 }
 
 /// Reads the scenario file (or the embedded demo) into its raw form.
@@ -525,21 +816,11 @@ fn load_raw(path: Option<&Path>) -> Result<(RawScenario, String)> {
     let (text, origin) = match path {
         Some(p) => {
             let origin = p.display().to_string();
-            let text = std::fs::read_to_string(p)
-                .map_err(|e| BadInput(format!("cannot read scenario file {origin}: {e}")))
-                .with_context(|| format!("reading scenario {origin}"))?;
+            let text =
+                std::fs::read_to_string(p).map_err(|e| BadInput(format!("cannot read scenario file {origin}: {e}")))?;
             (text, origin)
         }
         None => (scenario::DEMO_YAML.to_string(), "<embedded demo>".to_string()),
     };
     Ok((scenario::parse_raw(&text, &origin)?, origin))
-}
-
-fn progress_bar(len: u64) -> indicatif::ProgressBar {
-    let bar = indicatif::ProgressBar::new(len);
-    bar.set_style(
-        indicatif::ProgressStyle::with_template("{bar:40} {pos}/{len} replicates  {per_sec}  eta {eta}")
-            .unwrap_or_else(|_| indicatif::ProgressStyle::default_bar()),
-    );
-    bar
 }

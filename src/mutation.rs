@@ -76,6 +76,18 @@ pub enum Error {
         /// Sites available.
         sites: u64,
     },
+    /// The mutations of one locus would need more memory than can be allocated.
+    #[error(
+        "{mutations} mutations fell on one locus: placing them needs about {} of memory ({per_mutation} bytes per mutation for {samples} sampled sequences), more than can be allocated; lower mutation.sites or the mutation rate", crate::cost::bytes_text(*mutations as f64 * *per_mutation as f64)
+    )]
+    TooMuchMemory {
+        /// Mutations drawn.
+        mutations: u64,
+        /// Bytes per mutation ([`crate::cost::bytes_per_mutation`]).
+        per_mutation: u64,
+        /// Sample size.
+        samples: usize,
+    },
     /// More mutations than sites on one local tree of a recombining locus.
     #[error(
         "{mutations} mutations fell on the local tree of sites {left}..{right} ({} sites): the infinite-sites model needs many more sites than mutations on every local tree (lower the mutation or recombination rate)", right - left
@@ -152,6 +164,7 @@ pub fn place_with<R: Rng + ?Sized>(
             }
         }
         Count::Fixed(k) if k > 0 => {
+            memory_check(k, n)?;
             let edges: Vec<_> = graph.edge_indices().collect();
             let weights: Vec<f64> = edges.iter().map(|&e| model.edge_mean(graph[e].length, graph[e].jumps)).collect();
             let pick = rand_distr::weighted::WeightedAliasIndex::new(weights)
@@ -176,6 +189,7 @@ pub fn place_with<R: Rng + ?Sized>(
     if total == 0 {
         return Ok(Mutations { positions: Vec::new(), haplotypes });
     }
+    memory_check(total, n)?;
     // Sample bitsets below each node, children before parents.
     let mut below = vec![0u64; graph.node_count() * words];
     for v in g.postorder() {
@@ -205,6 +219,51 @@ pub fn place_with<R: Rng + ?Sized>(
         haplotypes.push_site_bits(&below[child * words..(child + 1) * words]);
     }
     Ok(Mutations { positions: sites.into_iter().map(|(p, _)| p).collect(), haplotypes })
+}
+
+/// Expected number of mutations on the whole genealogy: the sum of [`MutationModel::edge_mean`]
+/// over its edges.
+pub fn expected_count(g: &Genealogy, model: &MutationModel) -> f64 {
+    let graph = g.graph();
+    graph.edge_indices().map(|e| model.edge_mean(graph[e].length, graph[e].jumps)).sum()
+}
+
+/// Splits `total` mutations over loci in proportion to `weights`: a multinomial draw, as
+/// sequential binomials Bin(left, w_i / (w_i + ... + w_last)).
+pub fn split_count<R: Rng + ?Sized>(total: u64, weights: &[f64], rng: &mut R) -> Result<Vec<u64>, Error> {
+    let sum: f64 = weights.iter().sum();
+    if total > 0 && !(sum > 0.0 && sum.is_finite()) {
+        return Err(Error::NoBranchLength { mutations: total });
+    }
+    let (mut left, mut rest) = (total, sum);
+    let mut out = Vec::with_capacity(weights.len());
+    for (i, &w) in weights.iter().enumerate() {
+        let k = if i + 1 == weights.len() {
+            left
+        } else if left == 0 || rest <= 0.0 {
+            0
+        } else {
+            rand_distr::Binomial::new(left, (w / rest).clamp(0.0, 1.0)).map_or(0, |b| b.sample(rng))
+        };
+        out.push(k);
+        left -= k;
+        rest -= w;
+    }
+    Ok(out)
+}
+
+/// Asks for the memory of `total` mutations on `samples` sequences once, before it is
+/// allocated piece by piece: a refused request is an error to report, where a failed
+/// allocation inside the placement would abort the program.
+fn memory_check(total: u64, samples: usize) -> Result<(), Error> {
+    let per_mutation = crate::cost::bytes_per_mutation(samples);
+    let refused = || Error::TooMuchMemory { mutations: total, per_mutation, samples };
+    let bytes = usize::try_from(total)
+        .ok()
+        .and_then(|t| t.checked_mul(per_mutation as usize))
+        .filter(|&b| b <= isize::MAX as usize)
+        .ok_or_else(refused)?;
+    Vec::<u8>::new().try_reserve_exact(bytes).map_err(|_| refused())
 }
 
 /// Places mutations along an ancestral recombination graph: each local tree receives the
@@ -242,6 +301,47 @@ pub fn place_along<R: Rng + ?Sized>(
 mod tests {
     use super::*;
     use crate::batch::{master_key, replicate_rng};
+
+    #[test]
+    fn an_impossible_number_of_mutations_is_an_error_not_an_abort() {
+        let s = crate::scenario::Scenario::from_yaml_str(
+            "demes: [{name: a, size: 50}]\nsamples: [{deme: a, count: 5}]\nmutation: {rate: 1.0e-6, sites: 1000000000000}\n",
+            "t",
+        )
+        .unwrap();
+        let mut rng = replicate_rng(&master_key(1), 0);
+        let g = crate::engine::simulate(&s, &mut rng);
+        let e = place_with(&g, s.mutation().unwrap(), Count::Fixed(u64::MAX / 4), vec![0; 5], &mut rng).unwrap_err();
+        assert!(matches!(e, Error::TooMuchMemory { .. }), "{e}");
+        assert!(e.to_string().contains("mutation.sites"), "{e}");
+    }
+
+    #[test]
+    fn the_split_of_s_over_loci_is_multinomial() {
+        // Source: multinomial moments, E[k_i] = n p_i, Var[k_i] = n p_i (1 - p_i); weights
+        // 1:2:3 and n = 600 give means 100, 200, 300 and sds 9.13, 11.55, 12.25.
+        let mut rng = replicate_rng(&master_key(9), 0);
+        let draws = 2000;
+        let mut sum = [0.0f64; 3];
+        let mut sq = [0.0f64; 3];
+        for _ in 0..draws {
+            let k = split_count(600, &[1.0, 2.0, 3.0], &mut rng).unwrap();
+            assert_eq!(k.iter().sum::<u64>(), 600);
+            for i in 0..3 {
+                sum[i] += k[i] as f64;
+                sq[i] += (k[i] as f64).powi(2);
+            }
+        }
+        for (i, p) in [1.0 / 6.0, 2.0 / 6.0, 3.0 / 6.0].into_iter().enumerate() {
+            let mean = sum[i] / draws as f64;
+            let var = sq[i] / draws as f64 - mean * mean;
+            let want_var = 600.0 * p * (1.0 - p);
+            assert!((mean - 600.0 * p).abs() < 5.0 * (want_var / draws as f64).sqrt(), "locus {i}: mean {mean}");
+            assert!((var / want_var - 1.0).abs() < 0.15, "locus {i}: variance {var} vs {want_var}");
+        }
+        assert_eq!(split_count(0, &[0.0, 0.0], &mut rng).unwrap(), [0, 0]);
+        assert!(split_count(3, &[0.0, 0.0], &mut rng).is_err());
+    }
     use crate::scenario::Scenario;
 
     #[test]

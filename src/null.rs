@@ -1,21 +1,25 @@
 //! Null distributions in bulk: many replicates of a scenario's statistics, streamed to disk
 //! in chunks, resumable, splittable into shards and mergeable.
 //!
-//! A run in `DIR` writes `null.json` (the manifest: scenario, seed, replicates, shard,
-//! chunk size, columns) and `chunk_000000.tsv`, `chunk_000001.tsv`, ... Each chunk holds
+//! A run in `DIR` writes `null.json` (the settings: scenario, seed, replicates, shard, chunk
+//! size, columns), `chunk_000000.tsv`, `chunk_000001.tsv`, ... and the chunk manifest
+//! `chunks.tsv` (`file rows crc32`, one line appended per finished chunk). Each chunk holds
 //! `chunk` consecutive replicates of the shard, one row each: the columns of
 //! `replicates.tsv` (see [`crate::report::replicate_columns`]) followed by the summed SFS
-//! `xi_1..xi_{n-1}`. A chunk is written to a temporary name and renamed when complete, so
-//! the directory only ever holds complete chunks under their final names; a rerun of the
-//! same command skips every complete chunk (resume) and refuses a directory made with other
-//! settings. Replicate i always uses the stream of (seed, i): `--shard I/K` runs the
-//! replicates with i mod K == I, and [`merge`] of the K shards gives the same `null.tsv`,
-//! byte for byte, as the merge of one unsharded run.
+//! `xi_1..xi_{n-1}`. A chunk is written to a temporary name and renamed when complete; a
+//! rerun of the same command checks every chunk against its row count and CRC-32 in
+//! `chunks.tsv`, redoes (and reports) any that is missing from it, truncated or altered,
+//! and refuses a directory made with other settings. Replicate i always uses the stream of
+//! (seed, i): `--shard I/K` runs the replicates with i mod K == I, and [`merge`] of the K
+//! shards gives the same `null.tsv`, byte for byte, as the merge of one unsharded run.
+//! The chunks are planned lazily: a run of 10^18 replicates costs nothing before its first
+//! chunk.
 //!
 //! With several loci each chunk also has `loci_000000.tsv`, ... (the columns of `loci.tsv`
-//! of `simulate`, one row per locus of each replicate), written before its chunk so that a
-//! complete chunk always has its per-locus file; [`merge`] joins them into `loci.tsv`.
-//! [`test`] reads them as a stream to give per-locus p-values ([`LocusTest`]).
+//! of `simulate`, one row per locus of each replicate), written and listed in `chunks.tsv`
+//! before its chunk, so that a complete chunk always has its per-locus file; [`merge`] joins
+//! them into `loci.tsv`. [`test`] reads them as a stream to give per-locus p-values
+//! ([`LocusTest`]).
 
 use crate::batch::{self, BatchConfig, Keep};
 use crate::mutation::Count;
@@ -23,6 +27,7 @@ use crate::report::{StreamFile, replicate_columns, replicate_values, write_atomi
 use crate::scenario::Scenario;
 use anyhow::{Context, Result, bail, ensure};
 use serde::{Deserialize, Serialize};
+use std::collections::BTreeMap;
 use std::fs;
 use std::io::Write;
 use std::path::{Path, PathBuf};
@@ -52,12 +57,142 @@ pub struct Manifest {
     pub columns: Vec<String>,
 }
 
+impl Manifest {
+    /// Names of the settings that differ from `other`'s.
+    pub fn differences(&self, other: &Manifest) -> Vec<&'static str> {
+        let mut d = Vec::new();
+        let mut check = |same: bool, name| {
+            if !same {
+                d.push(name)
+            }
+        };
+        check(self.seedline == other.seedline, "seedline version");
+        check(self.generator == other.generator, "generator");
+        check(self.scenario == other.scenario, "scenario");
+        check(self.seed == other.seed, "seed");
+        check(self.replicates == other.replicates, "replicates");
+        check((self.shard, self.shards) == (other.shard, other.shards), "shard");
+        check(self.chunk == other.chunk, "chunk");
+        check(self.mutations == other.mutations, "mutations");
+        check(self.columns == other.columns, "columns");
+        d
+    }
+
+    /// Sample size of the null's scenario (number of `xi_` columns + 1).
+    pub fn sample_size(&self) -> usize {
+        self.columns.iter().filter(|c| c.starts_with("xi_")).count() + 1
+    }
+
+    /// The sampling design of the null's scenario: (deme, generations ago) → sequences.
+    pub fn design(&self) -> BTreeMap<(String, u64), u64> {
+        let mut out = BTreeMap::new();
+        for s in self.scenario.get("samples").and_then(|v| v.as_array()).into_iter().flatten() {
+            let deme = s.get("deme").and_then(|v| v.as_str()).unwrap_or("").to_string();
+            let t = s.get("generations_ago").and_then(|v| v.as_f64()).unwrap_or(0.0) as u64;
+            match (s.get("count").and_then(|v| v.as_u64()), s.get("block")) {
+                (Some(c), _) => *out.entry((deme, t)).or_insert(0) += c,
+                (None, Some(b)) => {
+                    let from = b.get("from").and_then(|v| v.as_f64()).unwrap_or(0.0) as u64;
+                    let to = b.get("to").and_then(|v| v.as_f64()).unwrap_or(0.0) as u64;
+                    for t in from..=to.min(from.saturating_add(1 << 24)) {
+                        *out.entry((deme.clone(), t)).or_insert(0) += 1;
+                    }
+                }
+                _ => {}
+            }
+        }
+        out
+    }
+}
+
 /// A directory holds a null run made with other settings: resuming it would mix two nulls.
 #[derive(Debug, thiserror::Error)]
-#[error("{} holds a null run with other settings (scenario, seed, replicates, shard, chunk or mutations differ): use another --out", dir.display())]
+#[error("{} holds a null run with other settings ({differs} differ): use another --out, or rerun with the settings in its null.json", dir.display())]
 pub struct SettingsMismatch {
     /// The directory.
     pub dir: PathBuf,
+    /// The settings that differ.
+    pub differs: String,
+}
+
+/// Why a null run or a null distribution was refused.
+#[derive(Debug, thiserror::Error)]
+#[non_exhaustive]
+pub enum NullError {
+    /// `--replicates 0`.
+    #[error("--replicates 0: a null distribution needs at least 1 replicate")]
+    NoReplicates,
+    /// `--chunk 0`.
+    #[error("--chunk 0: a chunk holds at least 1 replicate")]
+    ZeroChunk,
+    /// The scenario has no mutation model.
+    #[error("a null distribution needs a mutation model: add `mutation: {{rate: ..., sites: ...}}` to the scenario")]
+    NoMutationModel,
+    /// A fixed number of mutations with recombination.
+    #[error(
+        "a fixed number of mutations (--condition-on-s) is not implemented with recombination: drop `recombination:` or --condition-on-s"
+    )]
+    FixedWithRecombination,
+    /// A cell of a null table is not a number.
+    #[error(
+        "{file}, line {line}, column {column}: `{value}` is not allowed: a finite number (or an empty cell where undefined) is needed"
+    )]
+    Cell {
+        /// File.
+        file: String,
+        /// Line (1-based, the header is line 1).
+        line: usize,
+        /// Column name.
+        column: String,
+        /// The text of the cell.
+        value: String,
+    },
+    /// A null table's layout is wrong (header, field count, replicate index).
+    #[error("{file}, line {line}: {message}")]
+    Layout {
+        /// File.
+        file: String,
+        /// Line.
+        line: usize,
+        /// What is wrong.
+        message: String,
+    },
+    /// The chunks of a run are incomplete, damaged or duplicated.
+    #[error("{}: {message}", dir.display())]
+    Chunks {
+        /// Run directory.
+        dir: PathBuf,
+        /// What is wrong and what to do.
+        message: String,
+    },
+    /// The observed data and the null were made for different settings.
+    #[error("{0}")]
+    Mismatch(Box<Mismatch>),
+}
+
+/// The observed data and a null made for other settings ([`NullError::Mismatch`]).
+#[derive(Debug, thiserror::Error)]
+#[error("the null in {} was not made for {observed_file}: {setting} differs (observed {observed}, null {null}); {hint}", null_dir.display())]
+pub struct Mismatch {
+    /// Observed-statistics file.
+    pub observed_file: String,
+    /// Null run directory.
+    pub null_dir: PathBuf,
+    /// The setting that differs.
+    pub setting: &'static str,
+    /// Its value in the observed data.
+    pub observed: String,
+    /// Its value in the null.
+    pub null: String,
+    /// What to do.
+    pub hint: String,
+}
+
+impl NullError {
+    /// Whether the error is the user's input being wrong (exit code 2).
+    pub fn is_bad_input(&self) -> bool {
+        true
+    }
 }
 
 /// Settings of a null run.
@@ -75,6 +210,41 @@ pub struct NullConfig {
     pub max_new_chunks: Option<u64>,
 }
 
+impl NullConfig {
+    /// Replicates of this shard: #{i < B : i mod K == I}.
+    pub fn shard_replicates(&self) -> u64 {
+        let (i, k) = self.shard;
+        if i >= self.replicates || k == 0 { 0 } else { (self.replicates - 1 - i) / k + 1 }
+    }
+
+    /// Chunks of this shard.
+    pub fn total_chunks(&self) -> u64 {
+        self.shard_replicates().div_ceil(self.chunk.max(1))
+    }
+
+    /// Replicate indices of chunk `c`: shard-local positions c·chunk.. mapped to i = I + K·j.
+    fn chunk_range(&self, c: u64) -> (u64, u64) {
+        let from = c.saturating_mul(self.chunk);
+        let to = from.saturating_add(self.chunk).min(self.shard_replicates());
+        (from, to)
+    }
+
+    fn replicate(&self, j: u64) -> u64 {
+        self.shard.0 + self.shard.1 * j
+    }
+
+    /// Checks the settings that do not depend on the scenario.
+    pub fn check(&self) -> Result<(), NullError> {
+        if self.replicates == 0 {
+            return Err(NullError::NoReplicates);
+        }
+        if self.chunk == 0 {
+            return Err(NullError::ZeroChunk);
+        }
+        Ok(())
+    }
+}
+
 /// What a run did.
 #[derive(Debug, Clone, Serialize)]
 pub struct NullReport {
@@ -86,13 +256,16 @@ pub struct NullReport {
     pub total_chunks: u64,
     /// Replicates of this shard.
     pub shard_replicates: u64,
+    /// Chunks found damaged (or not in the chunk manifest) and redone, with the reason.
+    pub redone: Vec<String>,
 }
 
 /// Parses `I/K`.
 pub fn parse_shard(s: &str) -> Result<(u64, u64)> {
     let (i, k) = s.split_once('/').with_context(|| format!("--shard {s}: expected I/K, e.g. 0/4"))?;
-    let (i, k): (u64, u64) = (i.trim().parse()?, k.trim().parse()?);
-    ensure!(k >= 1 && i < k, "--shard {s}: needs K >= 1 and 0 <= I < K");
+    let parse = |x: &str| x.trim().parse::<u64>().with_context(|| format!("--shard {s}: `{x}` is not a whole number"));
+    let (i, k) = (parse(i)?, parse(k)?);
+    anyhow::ensure!(k >= 1 && i < k, "--shard {s}: needs K >= 1 and 0 <= I < K");
     Ok((i, k))
 }
 
@@ -104,6 +277,82 @@ fn loci_chunk_name(c: u64) -> String {
     format!("loci_{c:06}.tsv")
 }
 
+/// The chunk index of a chunk file name, `chunk_000012.tsv` → 12.
+fn chunk_index(name: &str) -> Option<u64> {
+    let digits = name.strip_prefix("chunk_")?.strip_suffix(".tsv")?;
+    (digits.len() >= 6 && digits.bytes().all(|b| b.is_ascii_digit())).then(|| digits.parse().ok()).flatten()
+}
+
+/// The chunk manifest of a run directory.
+pub const CHUNK_MANIFEST: &str = "chunks.tsv";
+
+/// Rows and CRC-32 of each finished chunk, from the chunk manifest (a torn last line,
+/// left by a kill, is ignored: its chunk is redone).
+fn read_ledger(dir: &Path) -> BTreeMap<String, (u64, String)> {
+    let mut out = BTreeMap::new();
+    let Ok(text) = fs::read_to_string(dir.join(CHUNK_MANIFEST)) else { return out };
+    for line in text.lines() {
+        let f: Vec<&str> = line.split('\t').collect();
+        if let [name, rows, crc] = f[..]
+            && let Ok(rows) = rows.parse()
+            && crc.len() == 8
+        {
+            out.insert(name.to_string(), (rows, crc.to_string()));
+        }
+    }
+    out
+}
+
+/// Rows and CRC-32 of a chunk file's bytes.
+fn chunk_facts(bytes: &[u8]) -> (u64, String) {
+    let rows = bytes.iter().filter(|&&b| b == b'\n').count().saturating_sub(1) as u64;
+    (rows, crate::report::output::crc32_hex(bytes))
+}
+
+/// Why a chunk on disk cannot be trusted, or `None` when it matches the chunk manifest.
+fn chunk_problem(path: &Path, ledger: &BTreeMap<String, (u64, String)>, expected_rows: u64) -> Option<String> {
+    let name = path.file_name()?.to_string_lossy().into_owned();
+    let Ok(bytes) = fs::read(path) else { return Some(format!("{name} cannot be read")) };
+    let (rows, crc) = chunk_facts(&bytes);
+    match ledger.get(&name) {
+        None => Some(format!("{name} is not in the chunk manifest ({CHUNK_MANIFEST}): it may be unfinished")),
+        Some((r, c)) if *r != rows || *c != crc || rows != expected_rows => Some(format!(
+            "{name} holds {rows} rows with CRC-32 {crc}, the chunk manifest says {r} rows with {c} ({expected_rows} expected)"
+        )),
+        Some(_) => None,
+    }
+}
+
+/// Appends the rows and CRC-32 of a finished file to the chunk manifest, durably.
+fn append_ledger(ledger_path: &Path, path: &Path) -> Result<()> {
+    let (rows, crc) = chunk_facts(&fs::read(path).with_context(|| format!("cannot read {}", path.display()))?);
+    let name = path.file_name().map(|n| n.to_string_lossy().into_owned()).unwrap_or_default();
+    let mut ledger_file = fs::OpenOptions::new()
+        .create(true)
+        .append(true)
+        .open(ledger_path)
+        .with_context(|| format!("cannot open {} to append", ledger_path.display()))?;
+    ledger_file
+        .write_all(format!("{name}\t{rows}\t{crc}\n").as_bytes())
+        .and_then(|_| ledger_file.sync_all())
+        .with_context(|| format!("cannot append to {}", ledger_path.display()))
+}
+
+/// Checks that `dir` may receive a null run (see [`crate::report::output::claim`]): empty,
+/// a null run (its `null.json`, chunks and chunk manifest are its own), or `force`.
+pub fn claim_dir(dir: &Path, force: bool) -> Result<(), crate::report::output::OutputError> {
+    let is_run = dir.join("null.json").is_file();
+    let own = move |name: &str| {
+        is_run
+            && (name == "null.json"
+                || name == CHUNK_MANIFEST
+                || chunk_index(name).is_some()
+                || chunk_index(&name.replacen("loci_", "chunk_", 1)).is_some()
+                || ((name.starts_with(".chunk_") || name.starts_with(".loci_")) && name.ends_with(".tmp")))
+    };
+    crate::report::output::claim(dir, "null", force, &own).map(|_| ())
+}
+
 /// Runs (or resumes) a null run of `scenario` in `dir`. `progress(done)` is called with the
 /// number of replicates of the shard completed so far.
 pub fn run(
@@ -113,15 +362,13 @@ pub fn run(
     dir: &Path,
     progress: &(dyn Fn(u64) + Sync),
 ) -> Result<NullReport> {
-    ensure!(
-        scenario.mutation().is_some(),
-        "a null distribution needs a mutation model: add `mutation:` to the scenario"
-    );
-    ensure!(cfg.chunk >= 1, "--chunk must be at least 1");
-    ensure!(
-        scenario.recombination().is_none() || cfg.count == Count::Poisson,
-        "a fixed number of mutations is not implemented with recombination: drop `recombination:` or the fixed count"
-    );
+    cfg.check()?;
+    if scenario.mutation().is_none() {
+        return Err(NullError::NoMutationModel.into());
+    }
+    if scenario.recombination().is_some() && cfg.count != Count::Poisson {
+        return Err(NullError::FixedWithRecombination.into());
+    }
     let n = scenario.samples().len();
     let mut columns = replicate_columns(scenario);
     columns.extend((1..n).map(|i| format!("xi_{i}")));
@@ -140,91 +387,125 @@ pub fn run(
         },
         columns: columns.clone(),
     };
-    fs::create_dir_all(dir).with_context(|| format!("creating {}", dir.display()))?;
+    fs::create_dir_all(dir).with_context(|| format!("cannot create directory {}", dir.display()))?;
     let mpath = dir.join("null.json");
     if mpath.exists() {
-        let old: Manifest = serde_json::from_str(&fs::read_to_string(&mpath)?)
-            .with_context(|| format!("reading {}", mpath.display()))?;
+        let old = manifest_of(dir)?;
         if old != manifest {
-            return Err(SettingsMismatch { dir: dir.to_path_buf() }.into());
+            let differs = old.differences(&manifest).join(", ");
+            return Err(SettingsMismatch { dir: dir.to_path_buf(), differs }.into());
         }
     } else {
-        write_atomic(&mpath, serde_json::to_string_pretty(&manifest)?.as_bytes())?;
+        write_atomic(&mpath, serde_json::to_string_pretty(&manifest)?.as_bytes())
+            .with_context(|| format!("cannot write {}", mpath.display()))?;
     }
     // Temporary files of an interrupted run are incomplete by construction.
-    for e in fs::read_dir(dir)? {
+    for e in fs::read_dir(dir).with_context(|| format!("cannot list {}", dir.display()))? {
         let name = e?.file_name().to_string_lossy().into_owned();
         if (name.starts_with(".chunk_") || name.starts_with(".loci_")) && name.ends_with(".tmp") {
             let _ = fs::remove_file(dir.join(name));
         }
     }
-    let (shard, shards) = cfg.shard;
-    let reps: Vec<u64> = (0..cfg.replicates).filter(|i| i % shards == shard).collect();
+    let ledger = read_ledger(dir);
     let key = batch::master_key(scenario.seed());
     let labels: Vec<String> = scenario.samples().iter().map(|s| s.label.clone()).collect();
     let n_demes = scenario.demes().len();
-    let total_chunks = (reps.len() as u64).div_ceil(cfg.chunk);
-    let mut report =
-        NullReport { resumed_chunks: 0, written_chunks: 0, total_chunks, shard_replicates: reps.len() as u64 };
+    let total_chunks = cfg.total_chunks();
+    let mut report = NullReport {
+        resumed_chunks: 0,
+        written_chunks: 0,
+        total_chunks,
+        shard_replicates: cfg.shard_replicates(),
+        redone: Vec::new(),
+    };
     let done = std::sync::atomic::AtomicU64::new(0);
-    for (c, chunk) in reps.chunks(cfg.chunk as usize).enumerate() {
-        let path = dir.join(chunk_name(c as u64));
+    let ledger_path = dir.join(CHUNK_MANIFEST);
+    for c in 0..total_chunks {
+        let (from, to) = cfg.chunk_range(c);
+        let path = dir.join(chunk_name(c));
         if path.exists() {
-            report.resumed_chunks += 1;
-            done.fetch_add(chunk.len() as u64, std::sync::atomic::Ordering::Relaxed);
-            progress(done.load(std::sync::atomic::Ordering::Relaxed));
-            continue;
+            let loci_path = dir.join(loci_chunk_name(c));
+            let problem = chunk_problem(&path, &ledger, to - from).or_else(|| {
+                (scenario.loci() > 1)
+                    .then(|| chunk_problem(&loci_path, &ledger, (to - from) * scenario.loci()))
+                    .flatten()
+            });
+            match problem {
+                None => {
+                    report.resumed_chunks += 1;
+                    done.fetch_add(to - from, std::sync::atomic::Ordering::Relaxed);
+                    progress(done.load(std::sync::atomic::Ordering::Relaxed));
+                    continue;
+                }
+                Some(why) => {
+                    report.redone.push(why);
+                    fs::remove_file(&path).with_context(|| format!("cannot remove {}", path.display()))?;
+                }
+            }
         }
         if cfg.max_new_chunks.is_some_and(|m| report.written_chunks >= m) {
             break;
         }
-        let mut f = StreamFile::create(&path)?;
-        writeln!(f.out, "{}", columns.join("\t"))?;
-        let loci_path = dir.join(loci_chunk_name(c as u64));
+        let mut f = StreamFile::create(&path).with_context(|| format!("cannot create {}", path.display()))?;
+        writeln!(f.out, "{}", columns.join("\t")).with_context(|| format!("cannot write {}", path.display()))?;
+        let loci_path = dir.join(loci_chunk_name(c));
         let mut lf = match scenario.loci() > 1 {
             true => {
-                let mut lf = StreamFile::create(&loci_path)?;
-                writeln!(lf.out, "{}", crate::report::LOCI_COLUMNS.join("\t"))?;
+                let mut lf =
+                    StreamFile::create(&loci_path).with_context(|| format!("cannot create {}", loci_path.display()))?;
+                writeln!(lf.out, "{}", crate::report::LOCI_COLUMNS.join("\t"))
+                    .with_context(|| format!("cannot write {}", loci_path.display()))?;
                 Some(lf)
             }
             false => None,
         };
-        batch::run(
-            scenario,
-            chunk,
-            batch_config,
-            |sim, sc, rep, _| {
-                let r = replicate_with(sim, sc, &key, rep, cfg.count, &labels);
-                progress(done.fetch_add(1, std::sync::atomic::Ordering::Relaxed) + 1);
-                r
-            },
-            |rep, loci| {
-                let loci = loci?;
-                if let Some(lf) = lf.as_mut() {
-                    for (j, l) in loci.iter().enumerate() {
-                        let row = crate::report::locus_values(rep, j, l);
-                        let fields: Vec<String> = row.iter().map(|x| crate::report::tsv_value(*x)).collect();
-                        writeln!(lf.out, "{}", fields.join("\t"))?;
+        // Replicates are handed to the workers a slice at a time: a chunk may be huge.
+        const SLICE: u64 = 1 << 16;
+        let mut j = from;
+        while j < to {
+            let reps: Vec<u64> = (j..to.min(j + SLICE)).map(|j| cfg.replicate(j)).collect();
+            j += reps.len() as u64;
+            batch::run(
+                scenario,
+                &reps,
+                batch_config,
+                |sim, sc, rep, _| {
+                    let r = replicate_with(sim, sc, &key, rep, cfg.count, &labels);
+                    progress(done.fetch_add(1, std::sync::atomic::Ordering::Relaxed) + 1);
+                    r
+                },
+                |rep, loci| {
+                    let loci = loci.map_err(|e| anyhow::Error::new(e).context(format!("replicate {rep}")))?;
+                    if let Some(lf) = lf.as_mut() {
+                        for (j, l) in loci.iter().enumerate() {
+                            let row = crate::report::locus_values(rep, j, l);
+                            let fields: Vec<String> = row.iter().map(|x| crate::report::tsv_value(*x)).collect();
+                            writeln!(lf.out, "{}", fields.join("\t"))
+                                .with_context(|| format!("cannot write {}", loci_path.display()))?;
+                        }
                     }
-                }
-                let mut values = replicate_values(rep, &loci, n_demes);
-                let mut xi = vec![0u64; n.saturating_sub(1)];
-                for st in loci.iter().filter_map(|l| l.stats.as_ref()) {
-                    for (a, b) in xi.iter_mut().zip(&st.sfs) {
-                        *a += b;
+                    let mut values = replicate_values(rep, &loci, n_demes);
+                    let mut xi = vec![0u64; n.saturating_sub(1)];
+                    for st in loci.iter().filter_map(|l| l.stats.as_ref()) {
+                        for (a, b) in xi.iter_mut().zip(&st.sfs) {
+                            *a += b;
+                        }
                     }
-                }
-                values.extend(xi.iter().map(|x| Some(*x as f64)));
-                let fields: Vec<String> = values.iter().map(|x| crate::report::tsv_value(*x)).collect();
-                writeln!(f.out, "{}", fields.join("\t"))?;
-                Ok(())
-            },
-        )?;
-        // The per-locus file first: a chunk under its final name always has its loci.
-        if let Some(lf) = lf {
-            lf.finish().with_context(|| format!("writing {}", loci_path.display()))?;
+                    values.extend(xi.iter().map(|x| Some(*x as f64)));
+                    let fields: Vec<String> = values.iter().map(|x| crate::report::tsv_value(*x)).collect();
+                    writeln!(f.out, "{}", fields.join("\t"))
+                        .with_context(|| format!("cannot write {}", path.display()))?;
+                    Ok(())
+                },
+            )?;
         }
-        f.finish().with_context(|| format!("writing {}", path.display()))?;
+        // The per-locus file first: a chunk listed in the chunk manifest always has its loci.
+        if let Some(lf) = lf {
+            lf.finish().with_context(|| format!("cannot write {}", loci_path.display()))?;
+            append_ledger(&ledger_path, &loci_path)?;
+        }
+        f.finish().with_context(|| format!("cannot write {}", path.display()))?;
+        append_ledger(&ledger_path, &path)?;
         report.written_chunks += 1;
     }
     Ok(report)
@@ -242,20 +523,41 @@ fn replicate_with(
     match count {
         Count::Poisson => batch::simulate_replicate(sim, sc, key, rep, Keep::default(), labels, None),
         Count::Fixed(s) => {
-            // The fixed count applies to the whole replicate: one locus only.
-            let mut rng = batch::locus_rng(key, rep, 0);
-            let g = sim.simulate(sc, &mut rng);
+            // S mutations over the whole replicate: the genealogies of every locus first, then
+            // S split over the loci in proportion to their expected numbers of mutations
+            // (multinomial, drawn from locus 0's stream), then each locus's share placed.
             let demes: Vec<u32> = sc.samples().iter().map(|x| x.deme as u32).collect();
-            let model = sc.locus_mutation(0).expect("checked by run");
-            let m = crate::mutation::place_with(&g, &model, Count::Fixed(s), demes, &mut rng)?;
-            let stats = crate::stats::SampleStats::from_haplotypes(&m.haplotypes);
-            Ok(vec![batch::LocusOutcome::of_genealogy(&g, Some(stats))])
+            let mut loci = Vec::new();
+            for locus in 0..sc.loci() {
+                let mut rng = batch::locus_rng(key, rep, locus);
+                let g = sim.simulate(sc, &mut rng);
+                loci.push((g, rng));
+            }
+            let shares = if loci.len() == 1 {
+                vec![s]
+            } else {
+                let weights: Vec<f64> = (0..)
+                    .zip(&loci)
+                    .map(|(locus, (g, _))| {
+                        crate::mutation::expected_count(g, &sc.locus_mutation(locus).expect("checked by run"))
+                    })
+                    .collect();
+                crate::mutation::split_count(s, &weights, &mut loci[0].1)?
+            };
+            let mut out = Vec::with_capacity(loci.len());
+            for (locus, ((g, mut rng), k)) in (0..).zip(loci.into_iter().zip(shares)) {
+                let model = sc.locus_mutation(locus).expect("checked by run");
+                let m = crate::mutation::place_with(&g, &model, Count::Fixed(k), demes.clone(), &mut rng)?;
+                let stats = crate::stats::SampleStats::from_haplotypes(&m.haplotypes);
+                out.push(batch::LocusOutcome::of_genealogy(&g, Some(stats)));
+            }
+            Ok(out)
         }
     }
 }
 
 /// Rows of a null distribution: column names and one row of values per replicate, sorted
-/// by replicate.
+/// by replicate. Every cell is empty or a finite number (checked when read).
 #[derive(Debug, Clone)]
 pub struct NullTable {
     /// Column names (the first is `replicate`).
@@ -268,7 +570,7 @@ pub struct NullTable {
     /// complete chunks); empty with one locus.
     pub loci_files: Vec<PathBuf>,
     /// The run directory.
-    pub origin: String,
+    pub dir: PathBuf,
 }
 
 impl NullTable {
@@ -279,39 +581,80 @@ impl NullTable {
     }
 }
 
-fn read_rows(path: &Path, columns: &[String], rows: &mut Vec<(u64, Vec<String>)>) -> Result<()> {
-    let text = fs::read_to_string(path).with_context(|| format!("reading {}", path.display()))?;
+/// Reads the rows of one null table (a chunk or a merged `null.tsv`) from its text, checking
+/// the header against `columns`, the field count of every line, and every cell: the
+/// replicate a whole number, the others empty or a finite number.
+pub fn parse_table(text: &str, file: &str, columns: &[String]) -> Result<Vec<(u64, Vec<String>)>, NullError> {
     let mut lines = text.lines();
-    let head: Vec<String> = lines.next().unwrap_or("").split('\t').map(String::from).collect();
-    ensure!(head == columns, "{}: columns differ from the manifest's", path.display());
+    let head: Vec<&str> = lines.next().unwrap_or("").split('\t').collect();
+    if head != columns {
+        return Err(NullError::Layout {
+            file: file.to_string(),
+            line: 1,
+            message: format!(
+                "the header differs from the columns in null.json ({} columns, expected {})",
+                head.len(),
+                columns.len()
+            ),
+        });
+    }
+    let mut rows = Vec::new();
     for (i, line) in lines.enumerate() {
+        let line_no = i + 2;
         let fields: Vec<String> = line.split('\t').map(String::from).collect();
-        ensure!(
-            fields.len() == columns.len(),
-            "{}, line {}: {} fields, expected {}",
-            path.display(),
-            i + 2,
-            fields.len(),
-            columns.len()
-        );
-        let rep: u64 =
-            fields[0].parse().with_context(|| format!("{}, line {}: column replicate", path.display(), i + 2))?;
+        if fields.len() != columns.len() {
+            return Err(NullError::Layout {
+                file: file.to_string(),
+                line: line_no,
+                message: format!("{} fields, expected {} (the columns of its header)", fields.len(), columns.len()),
+            });
+        }
+        let cell = |j: usize| NullError::Cell {
+            file: file.to_string(),
+            line: line_no,
+            column: columns[j].clone(),
+            value: fields[j].clone(),
+        };
+        let rep: u64 = fields[0].parse().map_err(|_| cell(0))?;
+        for (j, f) in fields.iter().enumerate().skip(1) {
+            if !f.is_empty() && !f.parse::<f64>().is_ok_and(f64::is_finite) {
+                return Err(cell(j));
+            }
+        }
         rows.push((rep, fields));
     }
+    Ok(rows)
+}
+
+fn read_rows(path: &Path, columns: &[String], rows: &mut Vec<(u64, Vec<String>)>) -> Result<()> {
+    let text = fs::read_to_string(path).with_context(|| format!("cannot read {}", path.display()))?;
+    rows.extend(parse_table(&text, &path.display().to_string(), columns)?);
     Ok(())
 }
 
-fn manifest_of(dir: &Path) -> Result<Manifest> {
+fn manifest_of(dir: &Path) -> Result<Manifest, NullError> {
     let p = dir.join("null.json");
-    let text = fs::read_to_string(&p)
-        .with_context(|| format!("{} is not a null run directory (no null.json)", dir.display()))?;
-    serde_json::from_str(&text).with_context(|| format!("reading {}", p.display()))
+    let bad = |message: String| NullError::Chunks { dir: dir.to_path_buf(), message };
+    let text = fs::read_to_string(&p).map_err(|e| {
+        bad(format!("not a null run directory: cannot read its null.json ({e}); give the --out of `seedline null` or `seedline merge`"))
+    })?;
+    serde_json::from_str(&text).map_err(|e| bad(format!("null.json was not written by seedline: {e}")))
 }
 
-/// Loads a null distribution from a run directory: its merged `null.tsv` when present,
-/// otherwise its chunk files.
+/// Loads a complete null distribution from a run directory: its merged `null.tsv` when
+/// present, otherwise its chunk files, each checked against the chunk manifest. Refused:
+/// a missing, unfinished, damaged, unlisted or duplicated chunk, a replicate missing or
+/// given twice, a cell that is not a finite number.
 pub fn load(dir: &Path) -> Result<NullTable> {
     let manifest = manifest_of(dir)?;
+    let cfg = NullConfig {
+        replicates: manifest.replicates,
+        shard: (manifest.shard, manifest.shards),
+        chunk: manifest.chunk,
+        count: Count::Poisson,
+        max_new_chunks: None,
+    };
+    let chunks_err = |message: String| NullError::Chunks { dir: dir.to_path_buf(), message };
     let mut rows = Vec::new();
     let merged = dir.join("null.tsv");
     let mut loci_files = Vec::new();
@@ -321,20 +664,75 @@ pub fn load(dir: &Path) -> Result<NullTable> {
             loci_files.push(dir.join("loci.tsv"));
         }
     } else {
-        for p in chunk_files(dir)? {
-            read_rows(&p, &manifest.columns, &mut rows)?;
-            let name = p.file_name().map(|n| n.to_string_lossy().replacen("chunk_", "loci_", 1)).unwrap_or_default();
-            if dir.join(&name).exists() {
-                loci_files.push(dir.join(name));
+        let ledger = read_ledger(dir);
+        let n_loci = null_layout(&manifest).len() as u64;
+        let files = chunk_files(dir)?;
+        let total = cfg.total_chunks();
+        for p in &files {
+            let name = p.file_name().map(|n| n.to_string_lossy().into_owned()).unwrap_or_default();
+            let Some(c) = chunk_index(&name).filter(|&c| c < total) else {
+                return Err(chunks_err(format!(
+                    "{name} is not a chunk of this run (chunks are chunk_000000.tsv .. {}): remove it",
+                    chunk_name(total.saturating_sub(1))
+                ))
+                .into());
+            };
+            let (from, to) = cfg.chunk_range(c);
+            // Cells first (the most precise message), then the chunk against its manifest.
+            read_rows(p, &manifest.columns, &mut rows)?;
+            if let Some(why) = chunk_problem(p, &ledger, to - from) {
+                return Err(chunks_err(format!(
+                    "{why}: rerun the same `seedline null` command in this directory to redo it"
+                ))
+                .into());
             }
+            if n_loci > 1 {
+                let lp = dir.join(loci_chunk_name(c));
+                if let Some(why) = chunk_problem(&lp, &ledger, (to - from) * n_loci) {
+                    return Err(chunks_err(format!(
+                        "{why}: rerun the same `seedline null` command in this directory to redo it"
+                    ))
+                    .into());
+                }
+                loci_files.push(lp);
+            }
+        }
+        if (files.len() as u64) < total {
+            let have: std::collections::BTreeSet<u64> =
+                files.iter().filter_map(|p| chunk_index(&p.file_name()?.to_string_lossy())).collect();
+            let missing: Vec<String> = (0..total).filter(|c| !have.contains(c)).take(3).map(chunk_name).collect();
+            return Err(chunks_err(format!(
+                "{} of {total} chunks are present (missing: {}{}): finish the run by rerunning the same `seedline null` command",
+                files.len(),
+                missing.join(", "),
+                if total - (files.len() as u64) > 3 { ", ..." } else { "" }
+            ))
+            .into());
         }
     }
     rows.sort_by_key(|r| r.0);
-    Ok(NullTable { columns: manifest.columns.clone(), rows, manifest, loci_files, origin: dir.display().to_string() })
+    for w in rows.windows(2) {
+        if w[0].0 == w[1].0 {
+            return Err(
+                chunks_err(format!("replicate {} appears twice: a chunk or shard is duplicated", w[0].0)).into()
+            );
+        }
+    }
+    let expected = if merged.exists() { manifest.replicates } else { cfg.shard_replicates() };
+    if rows.len() as u64 != expected {
+        return Err(chunks_err(format!("{} rows, expected {expected} replicates", rows.len())).into());
+    }
+    if let Some((rep, _)) = rows.iter().find(|(r, _)| !merged.exists() && r % cfg.shard.1 != cfg.shard.0) {
+        return Err(
+            chunks_err(format!("replicate {rep} does not belong to shard {}/{}", cfg.shard.0, cfg.shard.1)).into()
+        );
+    }
+    Ok(NullTable { columns: manifest.columns.clone(), rows, manifest, loci_files, dir: dir.to_path_buf() })
 }
 
 fn chunk_files(dir: &Path) -> Result<Vec<PathBuf>> {
-    let mut v: Vec<PathBuf> = fs::read_dir(dir)?
+    let mut v: Vec<PathBuf> = fs::read_dir(dir)
+        .with_context(|| format!("cannot list {}", dir.display()))?
         .filter_map(|e| e.ok().map(|e| e.path()))
         .filter(|p| p.file_name().is_some_and(|n| n.to_string_lossy().starts_with("chunk_")))
         .collect();
@@ -344,9 +742,9 @@ fn chunk_files(dir: &Path) -> Result<Vec<PathBuf>> {
 
 /// Merges shard directories into `out/null.tsv` (rows sorted by replicate) and
 /// `out/null.json`. The shards must come from the same scenario, seed, replicates and
-/// mutation setting, and together hold every replicate exactly once.
+/// mutation setting, be complete, and together hold every replicate exactly once.
 pub fn merge(dirs: &[PathBuf], out: &Path) -> Result<u64> {
-    ensure!(!dirs.is_empty(), "merge needs at least one run directory");
+    anyhow::ensure!(!dirs.is_empty(), "merge needs at least one run directory");
     let first = manifest_of(&dirs[0])?;
     let mut rows = Vec::new();
     for d in dirs {
@@ -356,38 +754,56 @@ pub fn merge(dirs: &[PathBuf], out: &Path) -> Result<u64> {
             && m.replicates == first.replicates
             && m.mutations == first.mutations
             && m.columns == first.columns;
-        ensure!(
-            same,
-            "{} was made with other settings than {}: shards must share scenario, seed, replicates and mutations",
-            d.display(),
-            dirs[0].display()
-        );
+        if !same {
+            let differs: Vec<&str> =
+                m.differences(&first).into_iter().filter(|d| !["shard", "chunk"].contains(d)).collect();
+            return Err(NullError::Chunks {
+                dir: d.clone(),
+                message: format!(
+                    "made with other settings than {} ({} differ): shards must share scenario, seed, replicates and mutations",
+                    dirs[0].display(),
+                    differs.join(", ")
+                ),
+            }
+            .into());
+        }
         let t = load(d)?;
         rows.extend(t.rows);
     }
     rows.sort_by_key(|r| r.0);
     for w in rows.windows(2) {
-        ensure!(w[0].0 != w[1].0, "replicate {} appears twice: the same shard was given twice", w[0].0);
+        if w[0].0 == w[1].0 {
+            return Err(NullError::Chunks {
+                dir: out.to_path_buf(),
+                message: format!("replicate {} appears twice: the same shard was given twice", w[0].0),
+            }
+            .into());
+        }
     }
     let have = rows.len() as u64;
     if have != first.replicates {
-        bail!(
-            "the runs hold {have} of {} replicates: some shard is missing or unfinished (rerun it to resume)",
-            first.replicates
-        );
+        return Err(NullError::Chunks {
+            dir: out.to_path_buf(),
+            message: format!(
+                "the runs hold {have} of {} replicates: some shard is missing (give every shard directory)",
+                first.replicates
+            ),
+        }
+        .into());
     }
-    fs::create_dir_all(out)?;
+    fs::create_dir_all(out).with_context(|| format!("cannot create directory {}", out.display()))?;
     let mut text = first.columns.join("\t");
     text.push('\n');
     for (_, r) in &rows {
         text.push_str(&r.join("\t"));
         text.push('\n');
     }
-    write_atomic(&out.join("null.tsv"), text.as_bytes())?;
+    let p = out.join("null.tsv");
+    write_atomic(&p, text.as_bytes()).with_context(|| format!("cannot write {}", p.display()))?;
     let mut loci_rows: Vec<(u64, u64, String)> = Vec::new();
     for d in dirs {
         for p in load(d)?.loci_files {
-            let text = fs::read_to_string(&p).with_context(|| format!("reading {}", p.display()))?;
+            let text = fs::read_to_string(&p).with_context(|| format!("cannot read {}", p.display()))?;
             for (i, line) in text.lines().enumerate().skip(1) {
                 let mut f = line.split('\t');
                 let key = |x: Option<&str>| x.and_then(|v| v.parse::<u64>().ok());
@@ -406,10 +822,13 @@ pub fn merge(dirs: &[PathBuf], out: &Path) -> Result<u64> {
             text.push_str(r);
             text.push('\n');
         }
-        write_atomic(&out.join("loci.tsv"), text.as_bytes())?;
+        let p = out.join("loci.tsv");
+        write_atomic(&p, text.as_bytes()).with_context(|| format!("cannot write {}", p.display()))?;
     }
     let merged = Manifest { shard: 0, shards: 1, chunk: first.replicates.max(1), ..first };
-    write_atomic(&out.join("null.json"), serde_json::to_string_pretty(&merged)?.as_bytes())?;
+    let p = out.join("null.json");
+    write_atomic(&p, serde_json::to_string_pretty(&merged)?.as_bytes())
+        .with_context(|| format!("cannot write {}", p.display()))?;
     Ok(have)
 }
 
@@ -421,8 +840,12 @@ pub use crate::abc::{ObservedData, load_observed};
 /// file records loci, its loci by the observed ones: `loci` becomes the list of their
 /// callable lengths (so `mutation.sites` is dropped). Recombination keeps the scenario's rate
 /// per adjacent pair of sites within each locus.
-pub fn like(raw: &mut crate::scenario::RawScenario, observed: &ObservedData, origin: &str) -> Result<()> {
-    ensure!(!observed.design.is_empty(), "{origin}: the observed data have no sampling design");
+pub fn like(raw: &mut crate::scenario::RawScenario, observed: &ObservedData, _origin: &str) -> Result<()> {
+    anyhow::ensure!(
+        !observed.design.is_empty(),
+        "--like {}: the observed data have no sampling design (`design`, as written by `seedline observe`)",
+        observed.origin
+    );
     let loc = serde_saphyr::Location::UNKNOWN;
     raw.samples = observed
         .design
@@ -687,8 +1110,77 @@ pub struct TestReport {
     pub notes: Vec<String>,
 }
 
-/// Tests the observed statistics against the null table.
+/// Checks that the null was made for the observed data: the same sampling design (demes,
+/// times and sequences per deme and time), the same sample size, every observed statistic
+/// among the null's columns and, for a null with a fixed number of mutations, the same S.
+pub fn check_made_for(observed: &ObservedData, null: &NullTable) -> Result<(), NullError> {
+    let mismatch = |setting, observed_value: String, null_value: String, hint: &str| {
+        NullError::Mismatch(Box::new(Mismatch {
+            observed_file: observed.origin.clone(),
+            null_dir: null.dir.clone(),
+            setting,
+            observed: observed_value,
+            null: null_value,
+            hint: hint.to_string(),
+        }))
+    };
+    let like = "build the null for these data with `seedline null SCENARIO --like OBSERVED.json`";
+    let render = |d: &BTreeMap<(String, u64), u64>| {
+        d.iter().map(|((deme, t), n)| format!("{n} of {deme} at {t}")).collect::<Vec<_>>().join(", ")
+    };
+    if !observed.design.is_empty() {
+        let mut obs: BTreeMap<(String, u64), u64> = BTreeMap::new();
+        for (deme, t, n) in observed.design.iter().filter(|(_, _, n)| *n > 0) {
+            *obs.entry((deme.clone(), *t)).or_insert(0) += u64::from(*n);
+        }
+        let nul = null.manifest.design();
+        if obs != nul {
+            return Err(mismatch(
+                "the sampling design (sequences per deme and generations ago)",
+                render(&obs),
+                render(&nul),
+                like,
+            ));
+        }
+    }
+    let n = null.manifest.sample_size();
+    if let Some(m) = observed.sample_size
+        && m as usize != n
+    {
+        return Err(mismatch("the sample size", format!("{m} sequences"), format!("{n} sequences"), like));
+    }
+    let missing: Vec<&str> = observed
+        .names
+        .iter()
+        .zip(&observed.values)
+        .filter(|(name, v)| v.is_some() && !null.columns.contains(name))
+        .map(|(name, _)| name.as_str())
+        .collect();
+    if !missing.is_empty() {
+        return Err(mismatch(
+            "the set of statistics",
+            format!("also {}", missing.join(", ")),
+            "without them (other demes?)".into(),
+            like,
+        ));
+    }
+    if let Some(fixed) = null.manifest.mutations.strip_prefix("fixed ")
+        && let Some(s) = observed.value("segregating_sites")
+        && fixed.parse::<f64>().ok() != Some(s)
+    {
+        return Err(mismatch(
+            "the number of segregating sites (the null was conditioned on it)",
+            format!("S = {s}"),
+            format!("S = {fixed}"),
+            "build the null with `--condition-on-s` from these data, or without it",
+        ));
+    }
+    Ok(())
+}
+
+/// Tests the observed statistics against the null table, after [`check_made_for`].
 pub fn test(observed: &ObservedData, null: &NullTable) -> Result<TestReport> {
+    check_made_for(observed, null)?;
     let mut notes = Vec::new();
     let null_lengths = null_layout(&null.manifest);
     let mut loci = Vec::new();
@@ -696,7 +1188,7 @@ pub fn test(observed: &ObservedData, null: &NullTable) -> Result<TestReport> {
         if lengths.len() != null_lengths.len() {
             return Err(LayoutMismatch {
                 observed: observed.origin.clone(),
-                null: null.origin.clone(),
+                null: null.dir.display().to_string(),
                 observed_loci: lengths.len(),
                 null_loci: null_lengths.len(),
             }
@@ -836,7 +1328,10 @@ pub const LOCI_TEST_FILE: &str = "test_loci.tsv";
 /// Writes `test.tsv`, `test.json`, with several loci `test_loci.tsv`, and one SVG histogram
 /// per statistic into `dir`.
 pub fn write_test(r: &TestReport, null: &NullTable, dir: &Path) -> Result<()> {
-    fs::create_dir_all(dir.join("figures"))?;
+    let figures = dir.join("figures");
+    fs::create_dir_all(&figures).with_context(|| format!("cannot create directory {}", figures.display()))?;
+    let write_atomic =
+        |p: &Path, bytes: &[u8]| write_atomic(p, bytes).with_context(|| format!("cannot write {}", p.display()));
     let mut tsv =
         String::from("statistic\tobserved\tnull_replicates\tnull_mean\tnull_low_2.5\tnull_high_97.5\tp_value\n");
     for t in &r.statistics {

@@ -5,6 +5,8 @@
 //! never leaves a half-written file under the final name.
 
 pub mod figures;
+pub mod output;
+pub mod progress;
 
 use serde::Serialize;
 use std::fs;
@@ -471,7 +473,8 @@ pub fn simulate_to_dir(
             r
         },
         |rep, outcome| {
-            let loci_out = outcome?;
+            let loci_out =
+                outcome.map_err(|e| anyhow::Error::new(e).context(format!("{scenario_file}: replicate {rep}")))?;
             let values = replicate_values(rep, &loci_out, n_demes);
             let fields: Vec<String> = values.iter().map(|x| tsv_value(*x)).collect();
             writeln!(table.out, "{}", fields.join("\t"))?;
@@ -829,26 +832,47 @@ pub fn render_comparison(rows: &[Comparison]) -> String {
 ///
 /// [`finish`]: StreamFile::finish
 pub struct StreamFile {
-    /// Buffered writer on the temporary file.
-    pub out: io::BufWriter<fs::File>,
+    /// Buffered writer on the temporary file; its errors name the file.
+    pub out: NamedWriter,
     tmp: PathBuf,
     path: PathBuf,
     done: bool,
+}
+
+/// A buffered file writer whose errors say which file could not be written (`cannot write
+/// runs/x/.replicates.tsv.12.tmp: No space left on device`), keeping the error kind.
+pub struct NamedWriter {
+    inner: io::BufWriter<fs::File>,
+    path: PathBuf,
+}
+
+fn named(operation: &str, path: &Path, e: io::Error) -> io::Error {
+    io::Error::new(e.kind(), format!("cannot {operation} {}: {e}", path.display()))
+}
+
+impl Write for NamedWriter {
+    fn write(&mut self, buf: &[u8]) -> io::Result<usize> {
+        self.inner.write(buf).map_err(|e| named("write", &self.path, e))
+    }
+    fn flush(&mut self) -> io::Result<()> {
+        self.inner.flush().map_err(|e| named("write", &self.path, e))
+    }
 }
 
 impl StreamFile {
     /// Starts writing `path`.
     pub fn create(path: &Path) -> io::Result<Self> {
         let tmp = temporary_name(path);
-        let f = fs::File::create(&tmp)?;
-        Ok(StreamFile { out: io::BufWriter::new(f), tmp, path: path.to_path_buf(), done: false })
+        let f = fs::File::create(&tmp).map_err(|e| named("create", &tmp, e))?;
+        let out = NamedWriter { inner: io::BufWriter::new(f), path: tmp.clone() };
+        Ok(StreamFile { out, tmp, path: path.to_path_buf(), done: false })
     }
 
     /// Flushes, syncs and renames the file to its final name.
     pub fn finish(mut self) -> io::Result<()> {
         self.out.flush()?;
-        self.out.get_ref().sync_all()?;
-        fs::rename(&self.tmp, &self.path)?;
+        self.out.inner.get_ref().sync_all().map_err(|e| named("write", &self.tmp, e))?;
+        fs::rename(&self.tmp, &self.path).map_err(|e| named("rename into place", &self.path, e))?;
         self.done = true;
         Ok(())
     }

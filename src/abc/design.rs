@@ -119,8 +119,8 @@ pub struct DesignFile {
 /// costs: { per_individual: 1, per_layer: 20, per_site: 0.001 }   # optional
 /// ```
 pub fn parse_designs(text: &str, origin: &str) -> Result<DesignFile, Error> {
-    let raw: RawDesignFile =
-        serde_saphyr::from_str(text).map_err(|e| Error::Yaml { file: origin.to_string(), message: e.to_string() })?;
+    let raw: RawDesignFile = serde_saphyr::from_str(text)
+        .map_err(|e| Error::Yaml { file: origin.to_string(), message: crate::scenario::yaml_message(&e, text) })?;
     let err = |path: String, line: Option<u64>, message: String| Error::Design {
         file: origin.to_string(),
         path,

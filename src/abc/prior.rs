@@ -79,6 +79,16 @@ impl Prior {
         self.finish(self.at(u))
     }
 
+    /// The value at quantile `u` of the prior (rounded when [`Prior::integer`]).
+    pub fn quantile(&self, u: f64) -> f64 {
+        self.finish(self.at(u.clamp(0.0, 1.0)))
+    }
+
+    /// The median of the prior: the midpoint (uniform) or the geometric mean (log-uniform).
+    pub fn median(&self) -> f64 {
+        self.quantile(0.5)
+    }
+
     /// The value at quantile `u` of the prior, before rounding.
     fn at(&self, u: f64) -> f64 {
         match self.kind {
@@ -177,7 +187,7 @@ impl Hypothesis {
     /// Reads a hypothesis from YAML text; `origin` names the file in messages.
     pub fn from_yaml_str(text: &str, origin: &str, name: &str) -> Result<Self, Error> {
         let value: Value = serde_saphyr::from_str(text)
-            .map_err(|e| Error::Yaml { file: origin.to_string(), message: e.to_string() })?;
+            .map_err(|e| Error::Yaml { file: origin.to_string(), message: crate::scenario::yaml_message(&e, text) })?;
         if value.as_object().is_none() {
             return Err(Error::Yaml {
                 file: origin.to_string(),
@@ -354,6 +364,16 @@ fn slot<'a>(v: &'a mut Value, steps: &[PathStep]) -> &'a mut Value {
         };
     }
     cur
+}
+
+/// Whether a parsed file holds any prior map (a map with a `prior` key), i.e. is a
+/// hypothesis rather than a plain scenario.
+pub fn has_priors(v: &Value) -> bool {
+    match v {
+        Value::Object(map) => map.contains_key("prior") || map.values().any(has_priors),
+        Value::Array(xs) => xs.iter().any(has_priors),
+        _ => false,
+    }
 }
 
 /// Walks the value, replacing every prior map by `null` and recording it.

@@ -320,6 +320,10 @@ impl ArgSimulator {
                 }
             }
         }
+        // As in the engine: lineages that can never coalesce again (no migration path, or no
+        // shared sites with any lineage they could meet) stop at once instead of walking to
+        // the horizon; checked at the start, after groups and when a migration epoch ends.
+        let mut check_at = if model.reach { 0 } else { u64::MAX };
         while let Some(Reverse(top)) = self.heap.pop() {
             if self.heap.is_empty() {
                 // Nothing left to meet: the material can never coalesce again.
@@ -327,12 +331,25 @@ impl ArgSimulator {
                 break;
             }
             let (time, deme) = model.split(top.key);
+            if time >= check_at {
+                if self.all_apart(&model, &top) {
+                    self.stop(top.id);
+                    while let Some(Reverse(e)) = self.heap.pop() {
+                        self.stop(e.id);
+                    }
+                    break;
+                }
+                check_at = model.scenario.migration().next_epoch_start(time);
+            }
             if !top.sample && self.heap.peek().is_none_or(|Reverse(e)| e.key != top.key) {
                 self.step(&model, top.id, time, deme, rng);
                 continue;
             }
             crate::engine::pop_group(&mut self.heap, top, |e| e.key, &mut self.group);
             self.seat_group(&model, n as u32, time, deme, rng);
+            if model.reach {
+                check_at = 0;
+            }
         }
         self.split_gaps.sort_unstable();
         let mut splits: Vec<(u64, u32)> = Vec::new();
@@ -383,6 +400,33 @@ impl ArgSimulator {
     fn release(&mut self, id: u32) {
         self.slab[id as usize].clear();
         self.free.push(id);
+    }
+
+    /// Whether no two queued lineages (and `top`) that may meet share a site: then no site
+    /// can coalesce again (a merged lineage's sites are the union of its parts', and it can
+    /// only go where each part could). Only asked with few lineages left.
+    fn all_apart(&self, model: &Model, top: &Entry) -> bool {
+        const MAX_CHECKED: usize = 64;
+        if self.heap.len() >= MAX_CHECKED {
+            return false;
+        }
+        let migration = model.scenario.migration();
+        let live: Vec<&Entry> = std::iter::once(top).chain(self.heap.iter().map(|Reverse(e)| e)).collect();
+        let overlap = |a: u32, b: u32| {
+            self.slab[a as usize]
+                .iter()
+                .any(|x| self.slab[b as usize].iter().any(|y| x.left < y.right && y.left < x.right))
+        };
+        for (i, a) in live.iter().enumerate() {
+            let (ta, da) = model.split(a.key);
+            for b in &live[i + 1..] {
+                let (tb, db) = model.split(b.key);
+                if migration.may_meet(da, ta, db, tb) && overlap(a.id, b.id) {
+                    return false;
+                }
+            }
+        }
+        true
     }
 
     /// The lineage stops (founder, horizon, or alone): each segment is a root of its sites.
@@ -668,6 +712,8 @@ struct Model<'a> {
     migrates: bool,
     sites: u64,
     rate: f64,
+    /// Whether lineages may become unable to coalesce (several demes with a reachability table).
+    reach: bool,
 }
 
 impl<'a> Model<'a> {
@@ -682,6 +728,7 @@ impl<'a> Model<'a> {
             migrates: scenario.migration().is_active(),
             sites: config.sites,
             rate: config.recombination_rate,
+            reach: demes.len() > 1 && scenario.migration().has_reachability(),
         }
     }
 

@@ -8,13 +8,23 @@ pub fn null_histogram(name: &str, null: &[f64], observed: Option<f64>) -> anyhow
     {
         let root = SVGBackend::with_string(&mut svg, (640, 400)).into_drawing_area();
         root.fill(&WHITE).map_err(|e| anyhow::anyhow!("drawing {name}: {e}"))?;
+        // Only finite values can be binned (an infinite range would never end the axis).
+        let finite: Vec<f64> = null.iter().copied().filter(|x| x.is_finite()).collect();
+        let null = finite.as_slice();
+        let observed = observed.filter(|o| o.is_finite());
         let (mut lo, mut hi) = null.iter().fold((f64::INFINITY, f64::NEG_INFINITY), |(a, b), &x| (a.min(x), b.max(x)));
+        if null.is_empty() {
+            (lo, hi) = (observed.unwrap_or(0.0), observed.unwrap_or(0.0));
+        }
         if let Some(o) = observed {
             lo = lo.min(o);
             hi = hi.max(o);
         }
         if hi <= lo {
-            hi = lo + 1.0;
+            hi = lo + lo.abs().max(1.0);
+        }
+        if !(hi - lo).is_finite() {
+            anyhow::bail!("drawing {name}: the values span more than the largest number ({lo} to {hi})");
         }
         let bins = 40usize;
         let width = (hi - lo) / bins as f64;

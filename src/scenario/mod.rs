@@ -34,6 +34,9 @@ pub const MAX_LOCI: u64 = 1_000_000;
 /// Largest total sample size.
 pub const MAX_SAMPLES: usize = 1 << 24;
 
+/// Largest number of migration rates listed by the scenario's `Display` (more are summarised).
+pub const MAX_PRINTED_RATES: usize = 60;
+
 /// The scenario embedded in the binary, used when no file is given.
 pub const DEMO_YAML: &str = include_str!("../../scenarios/demo.yaml");
 
@@ -260,7 +263,81 @@ impl Scenario {
 
 /// Parses YAML into the raw mirror, mapping parser errors to [`Error::Syntax`].
 pub fn parse_raw(text: &str, origin: &str) -> Result<RawScenario, Error> {
-    serde_saphyr::from_str(text).map_err(|e| Error::Syntax { origin: origin.to_string(), message: e.to_string() })
+    serde_saphyr::from_str(text)
+        .map_err(|e| Error::Syntax { origin: origin.to_string(), message: yaml_message(&e, text) })
+}
+
+/// A YAML reading error in words for the user: `line L, column C, key `k`: what is wrong`
+/// and the offending lines, without the parser's Rust type names (`u64`, `RawSize`, ...).
+pub fn yaml_message(e: &serde_saphyr::Error, text: &str) -> String {
+    let inner = e.without_snippet().to_string();
+    // The parser's text is `error: line L column C: message`; keep the message.
+    let raw = inner.split_once(": ").map_or(inner.as_str(), |(_, m)| m);
+    let raw = match raw.find("column ") {
+        Some(i) if raw.starts_with("line ") => raw[i..].split_once(": ").map_or(raw, |(_, m)| m),
+        _ => raw,
+    };
+    let raw = raw.rsplit_once(" at line ").map_or(raw, |(m, _)| m);
+    let message = humanise(raw);
+    let Some(loc) = e.location().filter(|l| l.line() > 0) else { return message };
+    let (line, col) = (loc.line(), loc.column());
+    let key = text.lines().nth(line as usize - 1).and_then(|l| key_before(l, col as usize));
+    let snippet: Vec<String> = e
+        .render()
+        .lines()
+        .skip(1)
+        .filter(|l| !l.contains("<input>"))
+        .map(|l| match l.rfind('^') {
+            // The caret line repeats the parser's own words: keep only the caret.
+            Some(i) => l[..=i].to_string(),
+            None => l.to_string(),
+        })
+        .collect();
+    let key = key.map_or(String::new(), |k| format!(", key `{k}`"));
+    let mut out = format!("line {line}, column {col}{key}: {message}");
+    if !snippet.is_empty() {
+        out.push('\n');
+        out.push_str(&snippet.join("\n"));
+    }
+    out
+}
+
+/// The key whose value starts at (1-based) `col` of `line`: the last `name:` before it.
+fn key_before(line: &str, col: usize) -> Option<String> {
+    let prefix: String = line.chars().take(col.saturating_sub(1)).collect();
+    let before = prefix.trim_end().strip_suffix(':')?;
+    let key: String = before.chars().rev().take_while(|c| c.is_alphanumeric() || *c == '_').collect();
+    (!key.is_empty()).then(|| key.chars().rev().collect())
+}
+
+/// The parser's words for a type mismatch, in the scenario's terms.
+fn humanise(raw: &str) -> String {
+    let rules: [(&str, &str); 10] = [
+        ("non-finite float", "a finite number is needed (.nan and .inf are not allowed)"),
+        (
+            "untagged enum RawSize",
+            "`size` must be a number of individuals or a list of epochs [{generations_ago: ..., size: ..., growth: ...}]",
+        ),
+        ("untagged enum", "this value has none of the allowed forms"),
+        ("invalid u64", "a whole number >= 0 is needed"),
+        ("invalid u32", "a whole number >= 0 is needed"),
+        ("invalid usize", "a whole number >= 0 is needed"),
+        ("invalid floating point", "a number is needed"),
+        ("expected mapping start", "a map of keys (`{key: value, ...}`) is needed here"),
+        ("expected sequence start", "a list (`[...]` or `- ` items) is needed here"),
+        ("invalid type", "this value has the wrong type"),
+    ];
+    for (pattern, words) in rules {
+        if raw.contains(pattern) {
+            return words.to_string();
+        }
+    }
+    // No other Rust names: `struct RawDeme` and the like become plain words.
+    let mut out = raw.to_string();
+    for (name, words) in [("struct ", "a map "), ("Raw", ""), ("f64", "a number"), ("u64", "a whole number >= 0")] {
+        out = out.replace(name, words);
+    }
+    out
 }
 
 struct Validator {
@@ -757,12 +834,13 @@ impl Validator {
         let mut ok = true;
         for (k, &start) in cuts.iter().enumerate() {
             let end = cuts.get(k + 1).copied().unwrap_or(u64::MAX);
-            let mut m = vec![vec![0.0; n]; n];
+            // Sparse rows: 1000 demes would make dense matrices of a million numbers each.
+            let mut rows: Vec<Vec<(usize, f64)>> = vec![Vec::new(); n];
             for e in entries.iter().filter(|e| e.start <= start && start < e.end) {
-                m[e.from][e.to] += e.rate;
+                rows[e.from].push((e.to, e.rate));
             }
-            for (d, row) in m.iter_mut().enumerate() {
-                let off: f64 = row.iter().sum();
+            for (d, row) in rows.iter().enumerate() {
+                let off: f64 = row.iter().map(|&(_, p)| p).sum();
                 if off > 1.0 + 1e-12 {
                     let when = if end == u64::MAX {
                         format!("from {start} generations ago on")
@@ -776,11 +854,10 @@ impl Validator {
                     );
                     ok = false;
                 }
-                row[d] = (1.0 - off).max(0.0);
             }
-            pieces.push((start, end, m));
+            pieces.push((start, end, rows));
         }
-        ok.then(|| Migration::from_matrices(pieces))
+        ok.then(|| Migration::from_sparse(pieces))
     }
 
     fn deme_ref(&mut self, path: &str, line: Option<u64>, name: &str, names: &[&str]) -> Option<usize> {
@@ -952,10 +1029,28 @@ impl fmt::Display for Scenario {
         if self.migration.is_active() {
             for e in self.migration.epochs() {
                 let end = if e.end() == u64::MAX { "inf".to_string() } else { e.end().to_string() };
-                writeln!(f, "migration for child times [{}, {end}):", e.start())?;
-                for (d, row) in e.matrix().iter().enumerate() {
-                    let cells: Vec<String> = row.iter().map(|p| format!("{p:.6}")).collect();
-                    writeln!(f, "  {:>12}: {}", self.demes[d].name, cells.join("  "))?;
+                if e.n_demes() <= crate::demography::SMALL_MATRIX {
+                    writeln!(f, "migration for child times [{}, {end}):", e.start())?;
+                    for (d, row) in e.matrix().iter().enumerate() {
+                        let cells: Vec<String> = row.iter().map(|p| format!("{p:.6}")).collect();
+                        writeln!(f, "  {:>12}: {}", self.demes[d].name, cells.join("  "))?;
+                    }
+                } else if e.n_rates() <= MAX_PRINTED_RATES {
+                    writeln!(f, "migration for child times [{}, {end}), rates M[from][to] > 0:", e.start())?;
+                    for d in 0..e.n_demes() {
+                        for &(to, p) in e.row(d) {
+                            writeln!(f, "  {} -> {}: {p:.6}", self.demes[d].name, self.demes[to].name)?;
+                        }
+                    }
+                } else {
+                    let movers = (0..e.n_demes()).filter(|&d| !e.row(d).is_empty()).count();
+                    writeln!(
+                        f,
+                        "migration for child times [{}, {end}): {} rates between {} demes ({movers} with emigrants); too many to print",
+                        e.start(),
+                        e.n_rates(),
+                        e.n_demes()
+                    )?;
                 }
             }
         } else {

@@ -48,6 +48,10 @@ fn pair_index(i: usize, j: usize, d: usize) -> usize {
     i * d - i * (i + 1) / 2 + j
 }
 
+/// Largest number of demes of [`pair_coalescence_times`]: D(D+1)/2 = 820 unknowns, a dense
+/// system of 5 MB solved in about 10^9 operations.
+pub const MAX_DEMES: usize = 40;
+
 /// Exact E\[T(i, j)] for all pairs of demes, by solving the first-step equations.
 ///
 /// ```text
@@ -63,6 +67,11 @@ pub fn pair_coalescence_times(sizes: &[f64], migration: &[Vec<f64>]) -> Result<P
     }
     for &n in sizes {
         super::error::check("deme size", n, "[1, inf)", |x| x >= 1.0)?;
+    }
+    if d > MAX_DEMES {
+        return Err(TheoryError::MigrationMatrix {
+            reason: "more than MAX_DEMES demes: the dense pair-time system would not fit in memory",
+        });
     }
     if migration.len() != d || migration.iter().any(|r| r.len() != d) {
         return Err(TheoryError::MigrationMatrix { reason: "not a D x D matrix for D deme sizes" });

@@ -37,3 +37,73 @@ pub fn write(dir: &std::path::Path, name: &str, text: &str) -> String {
     std::fs::write(&p, text).unwrap();
     p.display().to_string()
 }
+
+/// What a bounded run of the binary did.
+pub struct Bounded {
+    /// Exit code; `None` when the run was killed at the bound (a hang) or by a signal.
+    pub code: Option<i32>,
+    /// Whether the bound was reached.
+    pub timed_out: bool,
+    /// Standard output.
+    pub stdout: String,
+    /// Standard error.
+    pub stderr: String,
+}
+
+/// Runs the binary with `args` in `dir`, killing it after `limit_secs` seconds: a guard
+/// against hangs, not a timing test (the bound is far above the expected time).
+pub fn seedline_bounded(dir: &std::path::Path, args: &[&str], env: &[(&str, &str)], limit_secs: u64) -> Bounded {
+    use std::io::Read;
+    use std::process::{Command, Stdio};
+    let mut cmd = Command::new(env!("CARGO_BIN_EXE_seedline"));
+    cmd.args(args).current_dir(dir).stdout(Stdio::piped()).stderr(Stdio::piped()).stdin(Stdio::null());
+    for (k, v) in env {
+        cmd.env(k, v);
+    }
+    let mut child = cmd.spawn().expect("the binary runs");
+    let mut out = child.stdout.take().unwrap();
+    let mut err = child.stderr.take().unwrap();
+    let t_out = std::thread::spawn(move || {
+        let mut s = String::new();
+        let _ = out.read_to_string(&mut s);
+        s
+    });
+    let t_err = std::thread::spawn(move || {
+        let mut s = String::new();
+        let _ = err.read_to_string(&mut s);
+        s
+    });
+    let start = std::time::Instant::now();
+    let (code, timed_out) = loop {
+        if let Some(status) = child.try_wait().unwrap() {
+            break (status.code(), false);
+        }
+        if start.elapsed().as_secs() >= limit_secs {
+            let _ = child.kill();
+            let _ = child.wait();
+            break (None, true);
+        }
+        std::thread::sleep(std::time::Duration::from_millis(20));
+    };
+    Bounded { code, timed_out, stdout: t_out.join().unwrap(), stderr: t_err.join().unwrap() }
+}
+
+/// Every file below `dir`, as relative paths, sorted.
+pub fn files_below(dir: &std::path::Path) -> Vec<String> {
+    fn walk(d: &std::path::Path, prefix: &str, out: &mut Vec<String>) {
+        let Ok(rd) = std::fs::read_dir(d) else { return };
+        for e in rd.flatten() {
+            let name = e.file_name().to_string_lossy().into_owned();
+            let rel = if prefix.is_empty() { name } else { format!("{prefix}/{name}") };
+            if e.file_type().is_ok_and(|t| t.is_dir()) {
+                walk(&e.path(), &rel, out);
+            } else {
+                out.push(rel);
+            }
+        }
+    }
+    let mut v = Vec::new();
+    walk(dir, "", &mut v);
+    v.sort();
+    v
+}
