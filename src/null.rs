@@ -1180,20 +1180,23 @@ pub fn check_made_for(observed: &ObservedData, null: &NullTable) -> Result<(), N
 
 /// Tests the observed statistics against the null table, after [`check_made_for`].
 pub fn test(observed: &ObservedData, null: &NullTable) -> Result<TestReport> {
+    // The number of loci first: it explains a differing set of statistics.
+    let null_lengths = null_layout(&null.manifest);
+    if let Some(lengths) = observed.layout()
+        && lengths.len() != null_lengths.len()
+    {
+        return Err(LayoutMismatch {
+            observed: observed.origin.clone(),
+            null: null.dir.display().to_string(),
+            observed_loci: lengths.len(),
+            null_loci: null_lengths.len(),
+        }
+        .into());
+    }
     check_made_for(observed, null)?;
     let mut notes = Vec::new();
-    let null_lengths = null_layout(&null.manifest);
     let mut loci = Vec::new();
     if let Some(lengths) = observed.layout() {
-        if lengths.len() != null_lengths.len() {
-            return Err(LayoutMismatch {
-                observed: observed.origin.clone(),
-                null: null.dir.display().to_string(),
-                observed_loci: lengths.len(),
-                null_loci: null_lengths.len(),
-            }
-            .into());
-        }
         let differ = lengths.iter().zip(&null_lengths).filter(|(a, b)| a != b).count();
         if differ > 0 {
             notes.push(format!(
