@@ -347,6 +347,9 @@ fn loci_factor(s: &Scenario) -> f64 {
     }
 }
 
+/// Largest number of demes that [`predict`] works out (pair and lineage chains).
+pub const MAX_DEMES: usize = 40;
+
 /// What every part of the prediction needs.
 struct Ctx<'a> {
     s: &'a Scenario,
@@ -551,6 +554,14 @@ fn predict_without_recombination(s: &Scenario) -> Prediction {
         }
     }
     out.regime = Some(regimes.join("; "));
+    if demes.len() > MAX_DEMES {
+        // The chains grow with the square of the demes (pairs) and faster (whole sample).
+        out.notes.push(format!(
+            "{} demes: predictions are computed for at most {MAX_DEMES} demes; simulate instead",
+            demes.len()
+        ));
+        return out;
+    }
     let mut ctx = Ctx::new(s);
     out.limit_holds = Some((ctx.check.holds, ctx.check.why().to_string()));
     if laws.iter().any(|l| l.is_time_dependent()) {
