@@ -105,11 +105,9 @@ fn exact_engine_seed_bank_mixture_and_since_founding() {
 
 #[test]
 fn approximate_engine_plain_kingman_and_structured() {
-    let plain = format!(
-        "seed: 7\ndemes: [{{name: a, size: 20000, dormancy: {{law: geometric, mean: 2}}}}]\n\
-         samples: [{{deme: a, count: 12}}]\nmutation: {{rate: 1.0e-8, sites: 10000}}\n"
-    );
-    check("approx, plain Kingman", &plain, true, 0x8441a9e62c511998);
+    let plain = "seed: 7\ndemes: [{name: a, size: 20000, dormancy: {law: geometric, mean: 2}}]\n\
+         samples: [{deme: a, count: 12}]\nmutation: {rate: 1.0e-8, sites: 10000}\n";
+    check("approx, plain Kingman", plain, true, 0x8441a9e62c511998);
     let structured = "seed: 8\ndemes:\n\
          - {name: a, size: 5000, dormancy: {law: uniform, max: 3}}\n\
          - {name: b, size: [{generations_ago: 0, size: 3000}, {generations_ago: 2000, size: 9000}], dormancy: {law: mixture, parts: [{weight: 0.99, law: none}, {weight: 0.01, law: geometric, mean: 2000}]}}\n\
