@@ -5,8 +5,8 @@
 //! result does not depend on the number of threads, on the order in which threads pick up
 //! work, or on which other replicates are run (shards, resumed runs).
 
-use crate::arg::{Arg, ArgSimulator};
 use crate::engine::Simulator;
+use crate::engine::arg::{Arg, ArgSimulator};
 use crate::genealogy::Genealogy;
 use crate::scenario::Scenario;
 use rand::SeedableRng;
@@ -176,7 +176,7 @@ pub struct LocusOutcome {
     /// Crossovers on the marginal trees ([`Arg::tree_crossovers`]), with recombination.
     pub tree_crossovers: Option<u64>,
     /// r² by distance over [`ld_bins`] of the sequence, when kept.
-    pub ld: Option<Vec<crate::arg::LdBin>>,
+    pub ld: Option<Vec<crate::stats::ld::LdBin>>,
 }
 
 impl LocusOutcome {
@@ -254,7 +254,7 @@ pub fn simulate_replicate(
     replicate: u64,
     keep: Keep,
     labels: &[String],
-    approx: Option<&crate::approx::ApproxModel>,
+    approx: Option<&crate::engine::approx::ApproxModel>,
 ) -> Result<Vec<LocusOutcome>, crate::mutation::Error> {
     let demes: Vec<u32> = scenario.samples().iter().map(|s| s.deme as u32).collect();
     let one = |sim: &mut Simulator, locus: u64| -> Result<LocusOutcome, crate::mutation::Error> {
@@ -298,7 +298,7 @@ pub fn simulate_replicate(
             let h = &m.haplotypes;
             let rows: Vec<Vec<u8>> =
                 (0..h.samples()).map(|s| (0..h.sites()).map(|j| u8::from(h.get(s, j))).collect()).collect();
-            out.ld = Some(crate::arg::ld_decay(&m.positions, &rows, &ld_bins(config.sites())));
+            out.ld = Some(crate::stats::ld::ld_decay(&m.positions, &rows, &ld_bins(config.sites())));
         }
         out.mutations = if keep.mutations { mutations } else { None };
         Ok(out)

@@ -49,7 +49,7 @@ enum Command {
         loci_table: bool,
         /// Engine: exact, approx (continuous-time limit; refused outside its domain) or auto
         #[arg(long, default_value = "auto")]
-        engine: seedline::approx::EngineChoice,
+        engine: seedline::engine::approx::EngineChoice,
     },
     /// Print what published theory predicts for the scenario, and why where nothing applies
     #[command(after_help = EXAMPLES)]
@@ -275,7 +275,7 @@ fn main() -> ExitCode {
                 c.is::<BadInput>()
                     || c.is::<scenario::Error>()
                     || c.is::<seedline::observed::Error>()
-                    || c.is::<seedline::approx::ApproxError>()
+                    || c.is::<seedline::engine::approx::ApproxError>()
                     || c.is::<seedline::null::SettingsMismatch>()
                     || c.downcast_ref::<seedline::abc::Error>().is_some_and(|a| a.is_bad_input())
             });

@@ -211,7 +211,7 @@ pub fn place_with<R: Rng + ?Sized>(
 /// Infinite sites holds per interval: more mutations than sites on one local tree is
 /// [`Error::TooManyOnLocalTree`].
 pub fn place_along<R: Rng + ?Sized>(
-    arg: &crate::arg::Arg,
+    arg: &crate::engine::arg::Arg,
     model: &MutationModel,
     demes: Vec<u32>,
     rng: &mut R,

@@ -211,7 +211,7 @@ pub struct SimulationSummary {
     /// Simulated means against the predictions.
     pub comparison: Vec<Comparison>,
     /// The engine that ran and why.
-    pub engine: crate::approx::EngineDecision,
+    pub engine: crate::engine::approx::EngineDecision,
 }
 
 /// Accumulates the columns of `replicates.tsv` for the summary.
@@ -288,7 +288,7 @@ pub struct SimulateOptions {
     /// Write `loci.tsv`, one row per locus.
     pub loci_table: bool,
     /// Exact, approximate or automatic choice of engine.
-    pub engine: crate::approx::EngineChoice,
+    pub engine: crate::engine::approx::EngineChoice,
 }
 
 /// The columns of `replicates.tsv` for a scenario.
@@ -382,10 +382,10 @@ pub fn simulate_to_dir(
     progress: &(dyn Fn() + Sync),
 ) -> anyhow::Result<SimulationSummary> {
     use anyhow::Context;
-    let engine = crate::approx::resolve(options.engine, scenario)?;
+    let engine = crate::engine::approx::resolve(options.engine, scenario)?;
     let approx = match engine.kind {
-        crate::approx::EngineKind::Approx => Some(crate::approx::ApproxModel::new(scenario)?),
-        crate::approx::EngineKind::Exact => None,
+        crate::engine::approx::EngineKind::Approx => Some(crate::engine::approx::ApproxModel::new(scenario)?),
+        crate::engine::approx::EngineKind::Exact => None,
     };
     fs::create_dir_all(dir).with_context(|| format!("creating output directory {}", dir.display()))?;
     let labels: Vec<String> = scenario.samples().iter().map(|s| s.label.clone()).collect();
@@ -548,8 +548,8 @@ impl LdAccumulator {
         LdAccumulator { edges: edges.to_vec(), sum: vec![0.0; k], pairs: vec![0; k] }
     }
 
-    /// Adds one locus' bins (from [`crate::arg::ld_decay`] over the same edges).
-    pub fn add(&mut self, bins: &[crate::arg::LdBin]) {
+    /// Adds one locus' bins (from [`crate::stats::ld::ld_decay`] over the same edges).
+    pub fn add(&mut self, bins: &[crate::stats::ld::LdBin]) {
         for (k, b) in bins.iter().enumerate() {
             if b.pairs > 0 {
                 self.sum[k] += b.mean_r2 * b.pairs as f64;

@@ -19,6 +19,10 @@
 //! 2 samples, and F_ST for a pair involving such a deme or with no between-deme difference.
 //! Sums are accumulated in f64 from integer counts, so the results do not depend on the
 //! order of the sites beyond rounding.
+//!
+//! [`ld`]: linkage disequilibrium (r²) between pairs of sites, binned by distance.
+
+pub mod ld;
 
 use serde::Serialize;
 

@@ -2,8 +2,8 @@
 //! overlap (large N, short dormancy). Every expected value names its source; all seeds are
 //! fixed, so the tests are deterministic. Run with `--nocapture` to see the grid table.
 
-use seedline::approx::{self, ApproxModel, EngineKind};
 use seedline::batch::{BatchConfig, master_key, replicate_rng};
+use seedline::engine::approx::{self, ApproxModel, EngineKind};
 use seedline::genealogy::Genealogy;
 use seedline::scenario::Scenario;
 use seedline::theory::{kingman, seedbank_coalescent::SeedBankCoalescent, structured};

@@ -4,11 +4,12 @@
 //! tolerances are multiples of the Monte-Carlo standard error and all seeds are fixed.
 
 use rayon::prelude::*;
-use seedline::arg::{ArgConfig, ArgSimulator, ld_decay};
 use seedline::batch::{self, BatchConfig, Keep, LocusOutcome, locus_rng, master_key, simulate_replicate};
 use seedline::engine::Simulator;
+use seedline::engine::arg::{ArgConfig, ArgSimulator};
 use seedline::scenario::{Error, Scenario};
 use seedline::stats::harmonic;
+use seedline::stats::ld::ld_decay;
 use seedline::theory::kingman;
 use std::path::PathBuf;
 mod common;

@@ -23,7 +23,7 @@ fn fnv(hash: &mut u64, bytes: &[u8]) {
 /// Digest of replicates 0..4 of the scenario through `simulate_replicate` with `approx`.
 fn digest(yaml: &str, approx: bool) -> u64 {
     let s = Scenario::from_yaml_str(yaml, "value-stability").unwrap();
-    let model = approx.then(|| seedline::approx::ApproxModel::new(&s).unwrap());
+    let model = approx.then(|| seedline::engine::approx::ApproxModel::new(&s).unwrap());
     let key = master_key(s.seed());
     let labels: Vec<String> = s.samples().iter().map(|x| x.label.clone()).collect();
     let keep = Keep { trees: true, mutations: true, ld: false };

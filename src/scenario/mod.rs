@@ -11,9 +11,9 @@ pub mod raw;
 
 pub use raw::RawScenario;
 
-use crate::arg::ArgConfig;
 use crate::demography::{Migration, SizeEpoch, SizeHistory};
 use crate::dormancy::{self, Dormancy, SeedAge};
+use crate::engine::arg::ArgConfig;
 use crate::mutation::MutationModel;
 use raw::{RawDeme, RawDormancy, RawMigration, RawSample, RawSize};
 use serde_saphyr::Spanned;

@@ -36,7 +36,7 @@
 //! tree is the engine's genealogy, replicate by replicate.
 //!
 //! ```
-//! use seedline::arg::{ArgConfig, ArgSimulator};
+//! use seedline::engine::arg::{ArgConfig, ArgSimulator};
 //! use seedline::{batch, scenario::Scenario};
 //! let yaml = "demes: [{name: pond, size: 200, dormancy: {law: geometric, mean: 2}}]\n\
 //!             samples: [{deme: pond, count: 4}]\n";
@@ -49,10 +49,8 @@
 //! assert!(arg.trees().iter().all(|t| t.genealogy().is_tree()));
 //! ```
 
-mod ld;
 mod trees;
 
-pub use ld::{LdBin, ld_decay, r_squared};
 pub use trees::LocalTree;
 
 use crate::dormancy::Dormancy;
@@ -331,7 +329,7 @@ impl ArgSimulator {
                 self.step(&model, top.id, time, deme, rng);
                 continue;
             }
-            crate::engine::pop_group(&mut self.heap, top, |e| e.key, &mut self.group);
+            super::exact::pop_group(&mut self.heap, top, |e| e.key, &mut self.group);
             self.seat_group(&model, n as u32, time, deme, rng);
         }
         self.split_gaps.sort_unstable();
@@ -398,7 +396,7 @@ impl ArgSimulator {
     fn seat_group<R: Rng + ?Sized>(&mut self, model: &Model, n: u32, time: u64, deme: usize, rng: &mut R) {
         let size = model.size(deme, time);
         self.group.sort_unstable_by_key(|e| (!e.sample, e.node, e.id));
-        crate::engine::seat_lineages(self.group.iter().map(|e| e.sample), size, &mut self.seat, &mut self.order, rng);
+        super::exact::seat_lineages(self.group.iter().map(|e| e.sample), size, &mut self.seat, &mut self.order, rng);
         let mut i = 0;
         while i < self.order.len() {
             let s = self.seat[self.order[i] as usize];
