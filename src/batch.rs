@@ -269,7 +269,7 @@ pub fn simulate_replicate(
             Some(config) => {
                 let arg = ArgSimulator::new().simulate(scenario, config, &mut rng);
                 let mutations = match scenario.mutation() {
-                    Some(m) => Some(crate::mutation::place_along(&arg, m, demes.clone(), &mut rng)?),
+                    Some(m) => Some(crate::mutation::place_along(arg.trees(), m, demes.clone(), &mut rng)?),
                     None => None,
                 };
                 if keep.trees {

@@ -14,7 +14,7 @@
 //! the lineage above a root has no defined length, so fixed differences between trees are
 //! not counted.
 
-use crate::genealogy::Genealogy;
+use crate::genealogy::{Genealogy, LocalTree};
 use crate::stats::Haplotypes;
 use rand::Rng;
 use rand::seq::SliceRandom;
@@ -203,7 +203,8 @@ pub fn place_with<R: Rng + ?Sized>(
     Ok(Mutations { positions: sites.into_iter().map(|(p, _)| p).collect(), haplotypes })
 }
 
-/// Places mutations along an ancestral recombination graph: each local tree receives the
+/// Places mutations along a recombining sequence (the local trees of an ancestral
+/// recombination graph, tiling it from left to right): each local tree receives the
 /// mutations of its own interval of sites, as [`place`] with `sites = right - left`, drawn
 /// tree by tree from left to right; positions are shifted by `left`, so they stay distinct,
 /// increasing and in 1..=L over the whole sequence. The haplotype matrix joins the trees'.
@@ -211,14 +212,14 @@ pub fn place_with<R: Rng + ?Sized>(
 /// Infinite sites holds per interval: more mutations than sites on one local tree is
 /// [`Error::TooManyOnLocalTree`].
 pub fn place_along<R: Rng + ?Sized>(
-    arg: &crate::engine::arg::Arg,
+    trees: &[LocalTree],
     model: &MutationModel,
     demes: Vec<u32>,
     rng: &mut R,
 ) -> Result<Mutations, Error> {
     let mut positions = Vec::new();
     let mut haplotypes = Haplotypes::new(demes.clone());
-    for t in arg.trees() {
+    for t in trees {
         let local = MutationModel { sites: t.sites(), ..*model };
         let m = place(t.genealogy(), &local, demes.clone(), rng).map_err(|e| match e {
             Error::TooManyMutations { mutations, .. } => {

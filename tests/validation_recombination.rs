@@ -185,7 +185,7 @@ fn mutations_along_the_sequence_sit_on_their_local_tree() {
     for rep in 0..20 {
         let mut rng = locus_rng(&key, rep, 0);
         let arg = ArgSimulator::new().simulate(&s, &config, &mut rng);
-        let m = seedline::mutation::place_along(&arg, s.mutation().unwrap(), vec![0; 6], &mut rng).unwrap();
+        let m = seedline::mutation::place_along(arg.trees(), s.mutation().unwrap(), vec![0; 6], &mut rng).unwrap();
         assert!(m.positions.windows(2).all(|w| w[0] < w[1]));
         assert!(m.positions.iter().all(|&p| (1..=sites).contains(&p)));
         for (j, &p) in m.positions.iter().enumerate() {

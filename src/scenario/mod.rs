@@ -11,9 +11,12 @@ pub mod raw;
 
 pub use raw::RawScenario;
 
+mod recombination;
+
+pub use recombination::{ArgConfig, ArgError};
+
 use crate::demography::{Migration, SizeEpoch, SizeHistory};
 use crate::dormancy::{self, Dormancy, SeedAge};
-use crate::engine::arg::ArgConfig;
 use crate::mutation::MutationModel;
 use raw::{RawDeme, RawDormancy, RawMigration, RawSample, RawSize};
 use serde_saphyr::Spanned;

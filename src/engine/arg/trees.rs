@@ -8,38 +8,7 @@
 //! unique (two nodes above one sample are on one root path, hence at different times).
 
 use super::{EdgeRec, RootRec};
-use crate::genealogy::{Genealogy, Node};
-
-/// The genealogy of the sites [left, right) of the sequence.
-#[derive(Debug, Clone)]
-pub struct LocalTree {
-    left: u64,
-    right: u64,
-    genealogy: Genealogy,
-}
-
-impl LocalTree {
-    /// First site of the interval.
-    pub fn left(&self) -> u64 {
-        self.left
-    }
-
-    /// One past the last site of the interval.
-    pub fn right(&self) -> u64 {
-        self.right
-    }
-
-    /// Number of sites the tree holds for, `right - left` (>= 1).
-    pub fn sites(&self) -> u64 {
-        self.right - self.left
-    }
-
-    /// The tree (a forest when some lineage stopped at the horizon or at a founder): samples
-    /// are nodes `0..n`, edges carry length in generations and jumps (reproduction events).
-    pub fn genealogy(&self) -> &Genealogy {
-        &self.genealogy
-    }
-}
+use crate::genealogy::{Genealogy, LocalTree, Node};
 
 /// One row of a tree's canonical form: (parent key, child key, jumps), or a root's key.
 type Row = (u32, u64, u32, u64, u64);
@@ -191,10 +160,10 @@ pub(crate) fn build(
         }
         sweep.canonical(&active, &active_roots, &mut canon);
         match trees.last_mut() {
-            Some(t) if canon == prev => t.right = y,
+            Some(t) if canon == prev => t.extend_to(y),
             _ => {
                 let genealogy = sweep.genealogy(&active, &active_roots);
-                trees.push(LocalTree { left: x, right: y, genealogy });
+                trees.push(LocalTree::new(x, y, genealogy));
                 std::mem::swap(&mut canon, &mut prev);
             }
         }
