@@ -7,6 +7,7 @@
 use rand::{RngExt, SeedableRng, rngs::ChaCha8Rng};
 use seedline::batch::{BatchConfig, Keep, master_key, replicate_rng, simulate_replicate};
 use seedline::dormancy::LookBack;
+use seedline::engine::Engine;
 use seedline::engine::Simulator;
 use seedline::scenario::Scenario;
 use std::hint::black_box;
@@ -131,7 +132,7 @@ fn batch_seconds(s: &Scenario, reps: u64, threads: usize) -> f64 {
         s,
         &idx,
         BatchConfig { threads, chunk: 256 },
-        |sim, sc, rep, _| simulate_replicate(sim, sc, &key, rep, Keep::default(), &labels, None).unwrap(),
+        |sim, sc, rep, _| simulate_replicate(&Engine::exact(sc), sim, &key, rep, Keep::default(), &labels).unwrap(),
         |_, r| {
             black_box(r);
             Ok(())
@@ -167,15 +168,15 @@ fn loci() {
     let many = scenario(&format!("loci: 1000\n{base}"));
     let key = master_key(1);
     let labels: Vec<String> = one.samples().iter().map(|x| x.label.clone()).collect();
-    let mut sim = Simulator::new();
+    let mut sim = seedline::engine::Scratch::default();
     let t0 = Instant::now();
     for rep in 0..200 {
-        black_box(simulate_replicate(&mut sim, &one, &key, rep, Keep::default(), &labels, None).unwrap());
+        black_box(simulate_replicate(&Engine::exact(&one), &mut sim, &key, rep, Keep::default(), &labels).unwrap());
     }
     let single = t0.elapsed().as_secs_f64() / 200.0;
     let t1 = Instant::now();
     for rep in 0..3 {
-        black_box(simulate_replicate(&mut sim, &many, &key, rep, Keep::default(), &labels, None).unwrap());
+        black_box(simulate_replicate(&Engine::exact(&many), &mut sim, &key, rep, Keep::default(), &labels).unwrap());
     }
     let thousand = t1.elapsed().as_secs_f64() / 3.0;
     println!(

@@ -8,6 +8,7 @@ use criterion::{Criterion, Throughput, criterion_group};
 use rand::{Rng, SeedableRng, rngs::ChaCha8Rng};
 use seedline::batch::{master_key, replicate_rng};
 use seedline::dormancy::LookBack;
+use seedline::engine::Engine;
 use seedline::engine::Simulator;
 use seedline::scenario::Scenario;
 use std::hint::black_box;
@@ -126,6 +127,7 @@ fn outside_engine_share() {
     let key = master_key(3);
     let labels: Vec<String> = s.samples().iter().map(|x| x.label.clone()).collect();
     let mut sim = Simulator::new();
+    let mut scratch = seedline::engine::Scratch::default();
     let (mut engine, mut total) = (Vec::new(), Vec::new());
     for round in 0..7u64 {
         let t0 = Instant::now();
@@ -137,8 +139,15 @@ fn outside_engine_share() {
         for rep in 0..40 {
             let keep = seedline::batch::Keep::default();
             black_box(
-                seedline::batch::simulate_replicate(&mut sim, &s, &key, round * 1000 + rep, keep, &labels, None)
-                    .unwrap(),
+                seedline::batch::simulate_replicate(
+                    &Engine::exact(&s),
+                    &mut scratch,
+                    &key,
+                    round * 1000 + rep,
+                    keep,
+                    &labels,
+                )
+                .unwrap(),
             );
         }
         total.push(t1.elapsed().as_secs_f64());

@@ -5,8 +5,8 @@
 //! result does not depend on the number of threads, on the order in which threads pick up
 //! work, or on which other replicates are run (shards, resumed runs).
 
-use crate::engine::Simulator;
-use crate::engine::arg::{Arg, ArgSimulator};
+use crate::engine::arg::Arg;
+use crate::engine::{Ancestry, Engine, Scratch};
 use crate::genealogy::Genealogy;
 use crate::scenario::Scenario;
 use rand::SeedableRng;
@@ -64,7 +64,7 @@ pub enum Error {
 /// Runs `per_replicate` for every replicate index of `replicates`, in parallel, and pushes
 /// the results to `sink` in the order of `replicates`.
 ///
-/// `per_replicate` receives a simulator (scratch buffers reused within a worker), the
+/// `per_replicate` receives the engines' scratch buffers (reused within a worker), the
 /// replicate index and that replicate's own random stream.
 pub fn run<T, F, S>(
     scenario: &Scenario,
@@ -75,7 +75,7 @@ pub fn run<T, F, S>(
 ) -> Result<(), Error>
 where
     T: Send,
-    F: Fn(&mut Simulator, &Scenario, u64, &mut ChaCha8Rng) -> T + Sync,
+    F: Fn(&mut Scratch, &Scenario, u64, &mut ChaCha8Rng) -> T + Sync,
     S: FnMut(u64, T) -> anyhow::Result<()>,
 {
     let pool = rayon::ThreadPoolBuilder::new()
@@ -87,7 +87,7 @@ where
         let results: Vec<T> = pool.install(|| {
             chunk
                 .par_iter()
-                .map_init(Simulator::new, |sim, &rep| {
+                .map_init(Scratch::default, |sim, &rep| {
                     let mut rng = replicate_rng(&key, rep);
                     per_replicate(sim, scenario, rep, &mut rng)
                 })
@@ -240,24 +240,20 @@ pub fn ld_bins(sites: u64) -> Vec<u64> {
     edges
 }
 
-/// Simulates every locus of one replicate: genealogy (the ARG engine when the scenario has
+/// Simulates every locus of one replicate with `engine` (local trees when the scenario has
 /// recombination), then mutations and statistics, each locus from its own stream
 /// [`locus_rng`]. Loci run in parallel when there are several.
-///
-/// `approx`: the continuous-time approximate engine to use instead of the exact one (see
-/// [`crate::approx`]), or `None` for the exact engine; it has no recombination, so it is
-/// only used without it.
 pub fn simulate_replicate(
-    sim: &mut Simulator,
-    scenario: &Scenario,
+    engine: &Engine,
+    scratch: &mut Scratch,
     key: &[u8; 32],
     replicate: u64,
     keep: Keep,
     labels: &[String],
-    approx: Option<&crate::engine::approx::ApproxModel>,
 ) -> Result<Vec<LocusOutcome>, crate::mutation::Error> {
+    let scenario = engine.scenario();
     let demes: Vec<u32> = scenario.samples().iter().map(|s| s.deme as u32).collect();
-    let one = |sim: &mut Simulator, locus: u64| -> Result<LocusOutcome, crate::mutation::Error> {
+    let one = |scratch: &mut Scratch, locus: u64| -> Result<LocusOutcome, crate::mutation::Error> {
         let mut rng = locus_rng(key, replicate, locus);
         let mut newick = String::new();
         let tag = if scenario.loci() > 1 {
@@ -265,9 +261,8 @@ pub fn simulate_replicate(
         } else {
             format!("replicate {replicate}")
         };
-        let (mut out, mutations) = match scenario.recombination() {
-            Some(config) => {
-                let arg = ArgSimulator::new().simulate(scenario, config, &mut rng);
+        let (mut out, mutations) = match engine.simulate(scratch, &mut rng) {
+            Ancestry::Sequence(arg) => {
                 let mutations = match scenario.mutation() {
                     Some(m) => Some(crate::mutation::place_along(arg.trees(), m, demes.clone(), &mut rng)?),
                     None => None,
@@ -277,11 +272,7 @@ pub fn simulate_replicate(
                 }
                 (LocusOutcome::of_arg(&arg, None), mutations)
             }
-            None => {
-                let g = match approx {
-                    Some(model) => model.simulate(&mut rng),
-                    None => sim.simulate(scenario, &mut rng),
-                };
+            Ancestry::Tree(g) => {
                 let mutations = match scenario.mutation() {
                     Some(m) => Some(crate::mutation::place(&g, m, demes.clone(), &mut rng)?),
                     None => None,
@@ -305,8 +296,8 @@ pub fn simulate_replicate(
     };
     let loci = scenario.loci();
     if loci == 1 {
-        Ok(vec![one(sim, 0)?])
+        Ok(vec![one(scratch, 0)?])
     } else {
-        (0..loci).into_par_iter().map_init(Simulator::new, |s, locus| one(s, locus)).collect()
+        (0..loci).into_par_iter().map_init(Scratch::default, |s, locus| one(s, locus)).collect()
     }
 }

@@ -47,9 +47,9 @@ enum Command {
         /// Also write loci.tsv with one row per locus
         #[arg(long)]
         loci_table: bool,
-        /// Engine: exact, approx (continuous-time limit; refused outside its domain) or auto
+        /// Engine: exact, approx (continuous-time limit; refused outside its domain) or auto (approx where a limit holds)
         #[arg(long, default_value = "auto")]
-        engine: seedline::engine::approx::EngineChoice,
+        engine: seedline::engine::EngineChoice,
     },
     /// Print what published theory predicts for the scenario, and why where nothing applies
     #[command(after_help = EXAMPLES)]
@@ -91,6 +91,9 @@ enum Command {
         /// Law of the family types: pm1 (±1) or normal
         #[arg(long, default_value = "pm1", value_parser = ["pm1", "normal"])]
         colours: String,
+        /// Engine: exact, approx (continuous-time limit; refused outside its domain) or auto (approx where a limit holds)
+        #[arg(long, default_value = "auto")]
+        engine: seedline::engine::EngineChoice,
     },
     /// Build a null distribution of the statistics in chunks (resumable, shardable)
     #[command(after_help = NULL_EXAMPLES)]
@@ -124,6 +127,9 @@ enum Command {
         /// Worker threads (0 = one per core)
         #[arg(long, default_value_t = 0)]
         threads: usize,
+        /// Engine: exact, approx (continuous-time limit; refused outside its domain) or auto (approx where a limit holds); part of the run's settings
+        #[arg(long, default_value = "auto")]
+        engine: seedline::engine::EngineChoice,
     },
     /// Merge the directories of null shards into one null.tsv
     Merge {
@@ -168,6 +174,9 @@ enum Command {
         /// Worker threads (0 = one per core)
         #[arg(long, default_value_t = 0)]
         threads: usize,
+        /// Engine: exact, approx (continuous-time limit; refused outside its domain) or auto (approx where a limit holds), chosen for each draw from the priors
+        #[arg(long, default_value = "auto")]
+        engine: seedline::engine::EngineChoice,
         /// Output directory
         #[arg(long, default_value = "seedline-compare")]
         out: PathBuf,
@@ -202,6 +211,9 @@ enum Command {
         /// Worker threads (0 = one per core)
         #[arg(long, default_value_t = 0)]
         threads: usize,
+        /// Engine: exact, approx (continuous-time limit; refused outside its domain) or auto (approx where a limit holds), chosen for each design and draw from the priors
+        #[arg(long, default_value = "auto")]
+        engine: seedline::engine::EngineChoice,
         /// Output directory
         #[arg(long, default_value = "seedline-design")]
         out: PathBuf,
@@ -275,8 +287,9 @@ fn main() -> ExitCode {
                 c.is::<BadInput>()
                     || c.is::<scenario::Error>()
                     || c.is::<seedline::observed::Error>()
-                    || c.is::<seedline::engine::approx::ApproxError>()
+                    || c.is::<seedline::engine::Error>()
                     || c.is::<seedline::null::SettingsMismatch>()
+                    || c.is::<seedline::null::EngineMismatch>()
                     || c.downcast_ref::<seedline::abc::Error>().is_some_and(|a| a.is_bad_input())
             });
             ExitCode::from(if bad_input { 2 } else { 1 })
@@ -339,23 +352,35 @@ fn run(cli: Cli) -> Result<()> {
             )?;
             Ok(())
         }
-        Command::Families { scenario, run, out, colours } => {
+        Command::Families { scenario, run, out, colours, engine } => {
             use seedline::families::{self, Colours, Options};
             let (scenario, origin) = run.scenario(Some(&scenario))?;
             let colours = if colours == "normal" { Colours::Normal } else { Colours::Pm1 };
             let bar = progress_bar(scenario.replicates());
             let config = run.batch();
-            let report = families::run(&scenario, &origin, config, &Options { colours, ..Options::default() }, &|| {
-                bar.inc(1)
-            })
-            .map_err(|e| if e.is_bad_input() { anyhow::Error::new(BadInput(e.to_string())) } else { e.into() })?;
+            let options = Options { colours, engine, ..Options::default() };
+            let report = families::run(&scenario, &origin, config, &options, &|| bar.inc(1))
+                .map_err(|e| if e.is_bad_input() { anyhow::Error::new(BadInput(e.to_string())) } else { e.into() })?;
             bar.finish_and_clear();
             families::write_to_dir(&report, &out)?;
             print!("{}", families::render_summary(&report));
+            println!("engine: {}", report.engine.reason);
             println!("wrote {}", families::FILES.map(|f| out.join(f).display().to_string()).join(", "));
             Ok(())
         }
-        Command::Null { scenario, replicates, shard, out, like, condition_on_s, chunk, max_chunks, seed, threads } => {
+        Command::Null {
+            scenario,
+            replicates,
+            shard,
+            out,
+            like,
+            condition_on_s,
+            chunk,
+            max_chunks,
+            seed,
+            threads,
+            engine,
+        } => {
             use seedline::null;
             let shard = null::parse_shard(&shard).map_err(|e| BadInput(format!("{e:#}")))?;
             let (mut raw, origin) = load_raw(Some(&scenario))?;
@@ -376,7 +401,7 @@ fn run(cli: Cli) -> Result<()> {
                 }
                 _ => seedline::mutation::Count::Poisson,
             };
-            let cfg = null::NullConfig { replicates, shard, chunk, count, max_new_chunks: max_chunks };
+            let cfg = null::NullConfig { replicates, shard, chunk, count, max_new_chunks: max_chunks, engine };
             let shard_reps = (0..replicates).filter(|i| i % shard.1 == shard.0).count() as u64;
             let bar = progress_bar(shard_reps);
             let report = null::run(&scenario, cfg, BatchConfig { threads, ..BatchConfig::default() }, &out, &|d| {
@@ -394,6 +419,7 @@ fn run(cli: Cli) -> Result<()> {
                 shard.1,
                 report.shard_replicates
             );
+            println!("engine: {}", report.engine.reason);
             Ok(())
         }
         Command::Merge { dirs, out } => {
@@ -416,7 +442,7 @@ fn run(cli: Cli) -> Result<()> {
             );
             Ok(())
         }
-        Command::Compare { observed, hypotheses, simulations, tolerance, statistics, adjust, threads, out } => {
+        Command::Compare { observed, hypotheses, simulations, tolerance, statistics, adjust, threads, engine, out } => {
             use seedline::abc::{self, compare};
             let obs = abc::load_observed(&observed)?;
             let files: Vec<String> = hypotheses.iter().map(|p| p.display().to_string()).collect();
@@ -427,12 +453,15 @@ fn run(cli: Cli) -> Result<()> {
                 .map(|(p, n)| abc::load_hypothesis(p, n))
                 .collect::<Result<Vec<_>, _>>()?;
             let adjust = if adjust == "logistic" { compare::Adjust::Logistic } else { compare::Adjust::None };
-            let opts = compare::CompareOptions { simulations, tolerance, statistics, adjust, threads };
+            let opts = compare::CompareOptions { simulations, tolerance, statistics, adjust, threads, engine };
             let bar = progress_bar(simulations * hyps.len() as u64);
             let result = compare::run(&obs, hyps, opts, &|| bar.inc(1))?;
             bar.finish_and_clear();
             compare::write(&result, &out)?;
             print!("{}", compare::render(&result));
+            for (h, e) in result.hypotheses.iter().zip(&result.engines) {
+                println!("engine for {}: {}", h.name, e.summary());
+            }
             println!("wrote results to {}", out.display());
             Ok(())
         }
@@ -446,6 +475,7 @@ fn run(cli: Cli) -> Result<()> {
             power_replicates,
             statistics,
             threads,
+            engine,
             out,
         } => {
             use seedline::abc::{self, design};
@@ -456,12 +486,16 @@ fn run(cli: Cli) -> Result<()> {
             let text = std::fs::read_to_string(&designs)
                 .map_err(|e| BadInput(format!("cannot read designs file {origin}: {e}")))?;
             let file = design::parse_designs(&text, &origin)?;
-            let opts = design::DesignOptions { level, target, replicates, power_replicates, statistics, threads };
+            let opts =
+                design::DesignOptions { level, target, replicates, power_replicates, statistics, threads, engine };
             let bar = progress_bar((replicates + power_replicates) * file.designs.len() as u64);
             let result = design::run(&h0, &h1, &file, opts, &|| bar.inc(1))?;
             bar.finish_and_clear();
             design::write(&result, &out)?;
             print!("{}", design::render(&result));
+            for (d, null, alternative) in &result.engines {
+                println!("engine for {d}: null {}; alternative {}", null.summary(), alternative.summary());
+            }
             println!("wrote results to {}", out.display());
             Ok(())
         }

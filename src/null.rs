@@ -13,6 +13,7 @@
 //! byte for byte, as the merge of one unsharded run.
 
 use crate::batch::{self, BatchConfig, Keep};
+use crate::engine::{Engine, EngineChoice, EngineKind, Scratch};
 use crate::mutation::Count;
 use crate::report::{StreamFile, replicate_columns, replicate_values, write_atomic};
 use crate::scenario::Scenario;
@@ -45,6 +46,31 @@ pub struct Manifest {
     pub mutations: String,
     /// Column names of every row.
     pub columns: Vec<String>,
+    /// The engine that made the rows (runs older than this field were exact).
+    #[serde(default = "exact_engine")]
+    pub engine: EngineKind,
+    /// Why that engine, in words.
+    #[serde(default)]
+    pub engine_reason: String,
+}
+
+fn exact_engine() -> EngineKind {
+    EngineKind::Exact
+}
+
+/// A directory holds a null run made with another engine: resuming it would mix two nulls.
+#[derive(Debug, thiserror::Error)]
+#[error(
+    "{} holds a null run made with the {was} engine, and this run would use the {now} engine: \
+     rerun with --engine {was}, or use another --out", dir.display()
+)]
+pub struct EngineMismatch {
+    /// The directory.
+    pub dir: PathBuf,
+    /// The engine of the rows already there.
+    pub was: EngineKind,
+    /// The engine this run resolved to.
+    pub now: EngineKind,
 }
 
 /// A directory holds a null run made with other settings: resuming it would mix two nulls.
@@ -68,6 +94,8 @@ pub struct NullConfig {
     pub count: Count,
     /// Stop after this many new chunks (for time-limited slots); the rest is done by a rerun.
     pub max_new_chunks: Option<u64>,
+    /// The engine asked for (`--engine`); the one that runs is part of the settings.
+    pub engine: EngineChoice,
 }
 
 /// What a run did.
@@ -81,6 +109,8 @@ pub struct NullReport {
     pub total_chunks: u64,
     /// Replicates of this shard.
     pub shard_replicates: u64,
+    /// The engine that ran and why.
+    pub engine: crate::engine::EngineDecision,
 }
 
 /// Parses `I/K`.
@@ -113,6 +143,7 @@ pub fn run(
         scenario.recombination().is_none() || cfg.count == Count::Poisson,
         "a fixed number of mutations is not implemented with recombination: drop `recombination:` or the fixed count"
     );
+    let engine = Engine::new(scenario, cfg.engine)?;
     let n = scenario.samples().len();
     let mut columns = replicate_columns(scenario);
     columns.extend((1..n).map(|i| format!("xi_{i}")));
@@ -130,13 +161,19 @@ pub fn run(
             Count::Fixed(s) => format!("fixed {s}"),
         },
         columns: columns.clone(),
+        engine: engine.kind(),
+        engine_reason: engine.decision().reason.clone(),
     };
     fs::create_dir_all(dir).with_context(|| format!("creating {}", dir.display()))?;
     let mpath = dir.join("null.json");
     if mpath.exists() {
         let old: Manifest = serde_json::from_str(&fs::read_to_string(&mpath)?)
             .with_context(|| format!("reading {}", mpath.display()))?;
-        if old != manifest {
+        if old.engine != manifest.engine {
+            return Err(EngineMismatch { dir: dir.to_path_buf(), was: old.engine, now: manifest.engine }.into());
+        }
+        // The reason is information only: `auto` and `exact` may both run the exact engine.
+        if (Manifest { engine_reason: manifest.engine_reason.clone(), ..old }) != manifest {
             return Err(SettingsMismatch { dir: dir.to_path_buf() }.into());
         }
     } else {
@@ -155,8 +192,13 @@ pub fn run(
     let labels: Vec<String> = scenario.samples().iter().map(|s| s.label.clone()).collect();
     let n_demes = scenario.demes().len();
     let total_chunks = (reps.len() as u64).div_ceil(cfg.chunk);
-    let mut report =
-        NullReport { resumed_chunks: 0, written_chunks: 0, total_chunks, shard_replicates: reps.len() as u64 };
+    let mut report = NullReport {
+        resumed_chunks: 0,
+        written_chunks: 0,
+        total_chunks,
+        shard_replicates: reps.len() as u64,
+        engine: engine.decision().clone(),
+    };
     let done = std::sync::atomic::AtomicU64::new(0);
     for (c, chunk) in reps.chunks(cfg.chunk as usize).enumerate() {
         let path = dir.join(chunk_name(c as u64));
@@ -175,8 +217,8 @@ pub fn run(
             scenario,
             chunk,
             batch_config,
-            |sim, sc, rep, _| {
-                let r = replicate_with(sim, sc, &key, rep, cfg.count, &labels);
+            |scratch, _, rep, _| {
+                let r = replicate_with(&engine, scratch, &key, rep, cfg.count, &labels);
                 progress(done.fetch_add(1, std::sync::atomic::Ordering::Relaxed) + 1);
                 r
             },
@@ -203,19 +245,20 @@ pub fn run(
 
 /// One replicate with the chosen mutation count (Poisson: as `simulate`).
 fn replicate_with(
-    sim: &mut crate::engine::Simulator,
-    sc: &Scenario,
+    engine: &Engine,
+    scratch: &mut Scratch,
     key: &[u8; 32],
     rep: u64,
     count: Count,
     labels: &[String],
 ) -> Result<Vec<batch::LocusOutcome>, crate::mutation::Error> {
     match count {
-        Count::Poisson => batch::simulate_replicate(sim, sc, key, rep, Keep::default(), labels, None),
+        Count::Poisson => batch::simulate_replicate(engine, scratch, key, rep, Keep::default(), labels),
         Count::Fixed(s) => {
-            // The fixed count applies to the whole replicate: one locus only.
+            // The fixed count applies to the whole replicate: one locus only (no recombination).
+            let sc = engine.scenario();
             let mut rng = batch::locus_rng(key, rep, 0);
-            let g = sim.simulate(sc, &mut rng);
+            let g = engine.simulate_tree(scratch, &mut rng);
             let demes: Vec<u32> = sc.samples().iter().map(|x| x.deme as u32).collect();
             let model = sc.mutation().expect("checked by run");
             let m = crate::mutation::place_with(&g, model, Count::Fixed(s), demes, &mut rng)?;
@@ -313,10 +356,11 @@ pub fn merge(dirs: &[PathBuf], out: &Path) -> Result<u64> {
             && m.seed == first.seed
             && m.replicates == first.replicates
             && m.mutations == first.mutations
-            && m.columns == first.columns;
+            && m.columns == first.columns
+            && m.engine == first.engine;
         ensure!(
             same,
-            "{} was made with other settings than {}: shards must share scenario, seed, replicates and mutations",
+            "{} was made with other settings than {}: shards must share scenario, seed, replicates, mutations and engine",
             d.display(),
             dirs[0].display()
         );

@@ -211,7 +211,7 @@ pub struct SimulationSummary {
     /// Simulated means against the predictions.
     pub comparison: Vec<Comparison>,
     /// The engine that ran and why.
-    pub engine: crate::engine::approx::EngineDecision,
+    pub engine: crate::engine::EngineDecision,
 }
 
 /// Accumulates the columns of `replicates.tsv` for the summary.
@@ -288,7 +288,7 @@ pub struct SimulateOptions {
     /// Write `loci.tsv`, one row per locus.
     pub loci_table: bool,
     /// Exact, approximate or automatic choice of engine.
-    pub engine: crate::engine::approx::EngineChoice,
+    pub engine: crate::engine::EngineChoice,
 }
 
 /// The columns of `replicates.tsv` for a scenario.
@@ -382,11 +382,7 @@ pub fn simulate_to_dir(
     progress: &(dyn Fn() + Sync),
 ) -> anyhow::Result<SimulationSummary> {
     use anyhow::Context;
-    let engine = crate::engine::approx::resolve(options.engine, scenario)?;
-    let approx = match engine.kind {
-        crate::engine::approx::EngineKind::Approx => Some(crate::engine::approx::ApproxModel::new(scenario)?),
-        crate::engine::approx::EngineKind::Exact => None,
-    };
+    let engine = crate::engine::Engine::new(scenario, options.engine)?;
     fs::create_dir_all(dir).with_context(|| format!("creating output directory {}", dir.display()))?;
     let labels: Vec<String> = scenario.samples().iter().map(|s| s.label.clone()).collect();
     let n = scenario.samples().len();
@@ -434,8 +430,8 @@ pub fn simulate_to_dir(
         scenario,
         &reps,
         config,
-        |sim, sc, rep, _| {
-            let r = crate::batch::simulate_replicate(sim, sc, &key, rep, keep, &labels, approx.as_ref());
+        |scratch, _, rep, _| {
+            let r = crate::batch::simulate_replicate(&engine, scratch, &key, rep, keep, &labels);
             progress();
             r
         },
@@ -508,7 +504,7 @@ pub fn simulate_to_dir(
         comparison: compare(&acc.summaries(), &sfs_means, &prediction, n == 2 && loci == 1),
         prediction: prediction.to_json(),
         notes: prediction.notes.clone(),
-        engine,
+        engine: engine.decision().clone(),
     };
     table.finish()?;
     trees.finish()?;

@@ -5,8 +5,8 @@
 
 use rayon::prelude::*;
 use seedline::batch::{self, BatchConfig, Keep, LocusOutcome, locus_rng, master_key, simulate_replicate};
-use seedline::engine::Simulator;
 use seedline::engine::arg::{ArgConfig, ArgSimulator};
+use seedline::engine::{Engine, Scratch};
 use seedline::scenario::{Error, Scenario};
 use seedline::stats::harmonic;
 use seedline::stats::ld::ld_decay;
@@ -34,9 +34,12 @@ fn rate_for(rho: f64, n_pop: u64, sites: u64) -> f64 {
 fn outcomes(s: &Scenario, reps: u64, keep: Keep) -> Vec<LocusOutcome> {
     let key = master_key(s.seed());
     let labels: Vec<String> = s.samples().iter().map(|x| x.label.clone()).collect();
+    let engine = Engine::exact(s);
     (0..reps)
         .into_par_iter()
-        .map_init(Simulator::new, |sim, r| simulate_replicate(sim, s, &key, r, keep, &labels, None).unwrap().remove(0))
+        .map_init(Scratch::default, |sim, r| {
+            simulate_replicate(&engine, sim, &key, r, keep, &labels).unwrap().remove(0)
+        })
         .collect()
 }
 

@@ -9,7 +9,7 @@
 //! statistic columns of `replicates.tsv`.
 
 use seedline::batch::{Keep, master_key, simulate_replicate};
-use seedline::engine::Simulator;
+use seedline::engine::{Engine, EngineChoice, Scratch};
 use seedline::scenario::Scenario;
 
 /// FNV-1a over bytes (Fowler, Noll & Vo; public-domain hash, constants of the 64-bit variant).
@@ -20,17 +20,19 @@ fn fnv(hash: &mut u64, bytes: &[u8]) {
     }
 }
 
-/// Digest of replicates 0..4 of the scenario through `simulate_replicate` with `approx`.
+/// Digest of replicates 0..4 of the scenario through `simulate_replicate`, on the approximate
+/// engine when `approx`, else on the exact one.
 fn digest(yaml: &str, approx: bool) -> u64 {
     let s = Scenario::from_yaml_str(yaml, "value-stability").unwrap();
-    let model = approx.then(|| seedline::engine::approx::ApproxModel::new(&s).unwrap());
+    let choice = if approx { EngineChoice::Approx } else { EngineChoice::Exact };
+    let engine = Engine::new(&s, choice).unwrap();
     let key = master_key(s.seed());
     let labels: Vec<String> = s.samples().iter().map(|x| x.label.clone()).collect();
     let keep = Keep { trees: true, mutations: true, ld: false };
-    let mut sim = Simulator::new();
+    let mut scratch = Scratch::default();
     let mut h = 0xcbf2_9ce4_8422_2325u64;
     for rep in 0..4 {
-        let loci = simulate_replicate(&mut sim, &s, &key, rep, keep, &labels, model.as_ref()).unwrap();
+        let loci = simulate_replicate(&engine, &mut scratch, &key, rep, keep, &labels).unwrap();
         for l in &loci {
             fnv(&mut h, l.newick.as_deref().unwrap_or("").as_bytes());
             fnv(&mut h, &l.jumps.to_le_bytes());
