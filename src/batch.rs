@@ -146,7 +146,7 @@ pub struct Keep {
     pub trees: bool,
     /// Positions and haplotypes of the mutations.
     pub mutations: bool,
-    /// r² by distance ([`ld_bins`]), with recombination and a mutation model.
+    /// r² by distance ([`ld_bins`]) within each locus, with a mutation model.
     pub ld: bool,
 }
 
@@ -285,11 +285,11 @@ pub fn simulate_replicate(
         };
         out.stats = mutations.as_ref().map(|m| crate::stats::SampleStats::from_haplotypes(&m.haplotypes));
         out.newick = keep.trees.then_some(newick);
-        if let (true, Some(config), Some(m)) = (keep.ld, scenario.recombination(), &mutations) {
+        if let (true, Some(model), Some(m)) = (keep.ld, scenario.mutation(), &mutations) {
             let h = &m.haplotypes;
             let rows: Vec<Vec<u8>> =
                 (0..h.samples()).map(|s| (0..h.sites()).map(|j| u8::from(h.get(s, j))).collect()).collect();
-            out.ld = Some(crate::stats::ld::ld_decay(&m.positions, &rows, &ld_bins(config.sites())));
+            out.ld = Some(crate::stats::ld::ld_decay(&m.positions, &rows, &ld_bins(model.sites())));
         }
         out.mutations = if keep.mutations { mutations } else { None };
         Ok(out)

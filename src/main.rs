@@ -47,6 +47,9 @@ enum Command {
         /// Also write loci.tsv with one row per locus
         #[arg(long)]
         loci_table: bool,
+        /// Also write ld.tsv: r² by distance within loci (all pairs of segregating sites)
+        #[arg(long)]
+        ld: bool,
         /// Engine: exact, approx (continuous-time limit; refused outside its domain) or auto (approx where a limit holds)
         #[arg(long, default_value = "auto")]
         engine: seedline::engine::EngineChoice,
@@ -303,14 +306,20 @@ fn is_broken_pipe(e: &anyhow::Error) -> bool {
 
 fn run(cli: Cli) -> Result<()> {
     match cli.command {
-        Command::Simulate { scenario, run, out, vcf, diploid, loci_table, engine } => {
+        Command::Simulate { scenario, run, out, vcf, diploid, loci_table, ld, engine } => {
             let (scenario, origin) = run.scenario(scenario.as_deref())?;
+            if ld && scenario.mutation().is_none() {
+                return Err(BadInput(format!(
+                    "{origin}: --ld needs a mutation model: add a `mutation:` section to the scenario"
+                ))
+                .into());
+            }
             let bar = progress_bar(scenario.replicates());
             let summary = seedline::report::simulate_to_dir(
                 &scenario,
                 &origin,
                 run.batch(),
-                seedline::report::SimulateOptions { vcf, diploid, loci_table, engine },
+                seedline::report::SimulateOptions { vcf, diploid, loci_table, engine, ld },
                 &out,
                 &|| bar.inc(1),
             )?;

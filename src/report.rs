@@ -275,7 +275,7 @@ pub fn render_summary(summary: &SimulationSummary) -> String {
 }
 
 /// Files always written by [`simulate_to_dir`]; `sfs.tsv` joins them with a mutation model,
-/// [`LD_FILE`] with recombination and a mutation model, `loci.tsv` and `vcf/` on request.
+/// [`LD_FILE`] (`--ld`), `loci.tsv` and `vcf/` on request.
 pub const SIMULATE_FILES: [&str; 3] = ["replicates.tsv", "trees.nwk", "summary.json"];
 
 /// Optional outputs of `simulate`.
@@ -289,6 +289,9 @@ pub struct SimulateOptions {
     pub loci_table: bool,
     /// Exact, approximate or automatic choice of engine.
     pub engine: crate::engine::EngineChoice,
+    /// Write [`LD_FILE`]: r² by distance within loci (all pairs of segregating sites: the
+    /// cost grows with the square of their number).
+    pub ld: bool,
 }
 
 /// The columns of `replicates.tsv` for a scenario.
@@ -383,6 +386,11 @@ pub fn simulate_to_dir(
 ) -> anyhow::Result<SimulationSummary> {
     use anyhow::Context;
     let engine = crate::engine::Engine::new(scenario, options.engine)?;
+    let ld_edges = match (options.ld, scenario.mutation()) {
+        (true, Some(m)) => Some(crate::batch::ld_bins(m.sites())),
+        (true, None) => anyhow::bail!("--ld needs a mutation model: add a `mutation:` section to the scenario"),
+        (false, _) => None,
+    };
     fs::create_dir_all(dir).with_context(|| format!("creating output directory {}", dir.display()))?;
     let labels: Vec<String> = scenario.samples().iter().map(|s| s.label.clone()).collect();
     let n = scenario.samples().len();
@@ -416,10 +424,6 @@ pub fn simulate_to_dir(
         crate::vcf_export::columns(scenario.samples(), options.diploid)?;
         fs::create_dir_all(&vcf_dir).with_context(|| format!("creating {}", vcf_dir.display()))?;
     }
-    let ld_edges = match (scenario.recombination(), mutation) {
-        (Some(r), true) => Some(crate::batch::ld_bins(r.sites())),
-        _ => None,
-    };
     let keep = crate::batch::Keep { trees: true, mutations: options.vcf, ld: ld_edges.is_some() };
     let mut ld_acc = LdAccumulator::new(ld_edges.as_deref().unwrap_or(&[]));
     let key = crate::batch::master_key(scenario.seed());
@@ -524,8 +528,8 @@ pub fn simulate_to_dir(
     Ok(summary)
 }
 
-/// Decay of linkage disequilibrium pooled over replicates, written by [`simulate_to_dir`] when
-/// the scenario has recombination and a mutation model.
+/// Decay of linkage disequilibrium pooled over replicates, written by [`simulate_to_dir`] on
+/// request (`--ld`; needs a mutation model).
 pub const LD_FILE: &str = "ld.tsv";
 
 /// r² by distance pooled over loci and replicates: per bin, the mean over all pairs of

@@ -281,7 +281,8 @@ fn simulate_writes_ld_decay_and_is_identical_for_any_thread_count() {
     let run = |threads: usize| {
         let dir = temp_dir(&format!("t{threads}"));
         let config = BatchConfig { threads, chunk: 16 };
-        seedline::report::simulate_to_dir(&s, "test", config, Default::default(), &dir, &|| ()).unwrap();
+        let options = seedline::report::SimulateOptions { ld: true, ..Default::default() };
+        seedline::report::simulate_to_dir(&s, "test", config, options, &dir, &|| ()).unwrap();
         let read = |f: &str| std::fs::read_to_string(dir.join(f)).unwrap();
         let files = (read("replicates.tsv"), read("trees.nwk"), read("ld.tsv"));
         std::fs::remove_dir_all(&dir).unwrap();
