@@ -14,15 +14,14 @@
 //! Lineages that would jump beyond the horizon, or reach a founder, stop: the result is then
 //! a forest, never an endless loop. When one lineage is left it is the root.
 
+use super::queue::{Keyed, Queue};
 use crate::dormancy::Dormancy;
 use crate::genealogy::{Genealogy, Node};
 use crate::scenario::{SampleKind, Scenario};
 use rand::{Rng, RngExt};
-use std::cmp::Reverse;
-use std::collections::BinaryHeap;
 
 /// A lineage waiting at (time, deme), or a sampled individual not yet reached.
-#[derive(Debug, Clone, Copy, PartialEq, Eq, PartialOrd, Ord)]
+#[derive(Debug, Clone, Copy, PartialEq, Eq)]
 struct Entry {
     /// time * n_demes + deme: one integer orders by time, then deme.
     key: u64,
@@ -34,10 +33,17 @@ struct Entry {
     sample: bool,
 }
 
+impl Keyed for Entry {
+    #[inline(always)]
+    fn key(&self) -> u64 {
+        self.key
+    }
+}
+
 /// Simulates genealogies; owns scratch buffers reused across replicates.
 #[derive(Debug, Default)]
 pub struct Simulator {
-    heap: BinaryHeap<Reverse<Entry>>,
+    queue: Queue<Entry>,
     group: Vec<Entry>,
     seat: Vec<u32>,
     order: Vec<u32>,
@@ -63,13 +69,13 @@ impl Simulator {
         let model = Model::new(scenario);
         let samples = scenario.samples();
         let mut g = Genealogy::with_samples(samples.len());
-        self.heap.clear();
+        self.queue.clear();
         let mut steps = 0u64;
         for (i, s) in samples.iter().enumerate() {
             let node = g.add_node(Node { time: s.time, deme: s.deme, sample: Some(i as u32) });
             match s.kind {
                 SampleKind::Population => {
-                    self.heap.push(Reverse(Entry { key: model.key(s.time, s.deme), node, jumps: 0, sample: true }))
+                    self.queue.push(Entry { key: model.key(s.time, s.deme), node, jumps: 0, sample: true })
                 }
                 SampleKind::Seedbank => {
                     // The seed was made a + 1 generations before sampling by a parent of the
@@ -81,25 +87,32 @@ impl Simulator {
                     if t > model.horizon {
                         g.add_root(node);
                     } else {
-                        self.heap.push(Reverse(Entry { key: model.key(t, to), node, jumps: 1, sample: false }));
+                        self.queue.push(Entry { key: model.key(t, to), node, jumps: 1, sample: false });
                     }
                 }
             }
         }
-        while let Some(&Reverse(top)) = self.heap.peek() {
-            if self.heap.len() == 1 {
-                self.heap.pop();
+        while let Some(&top) = self.queue.peek() {
+            if self.queue.len() == 1 {
+                self.queue.pop();
                 g.add_root(top.node);
                 break;
             }
-            self.heap.pop();
             let (time, deme) = model.split(top.key);
-            // Hot path: a lone arrival on its generation takes a new individual, no draw needed.
-            if !top.sample && self.heap.peek().is_none_or(|Reverse(e)| e.key != top.key) {
-                steps += self.step(&model, &mut g, top.node, top.jumps, time, deme, rng);
+            // Hot path: a lone arrival on its generation takes a new individual, no draw needed;
+            // its parent's lineage takes its place in the queue.
+            if !top.sample && !self.queue.top_key_shared() {
+                let (next, taken) = self.parent(&model, &mut g, top.node, top.jumps, time, deme, rng);
+                steps += taken;
+                match next {
+                    Some(e) => self.queue.replace_top(e),
+                    None => {
+                        self.queue.pop();
+                    }
+                }
                 continue;
             }
-            pop_group(&mut self.heap, top, |e| e.key, &mut self.group);
+            self.queue.pop_group(&mut self.group);
             steps += self.seat_group(&model, &mut g, time, deme, rng);
         }
         g.sort_roots();
@@ -121,7 +134,7 @@ impl Simulator {
         self.group.sort_unstable_by_key(|e| (!e.sample, e.node));
         seat_lineages(self.group.iter().map(|e| e.sample), n, &mut self.seat, &mut self.order, rng);
         self.merge_runs(g, time, deme);
-        if model.lockstep[deme] && !self.step_by_step && self.heap.is_empty() {
+        if model.lockstep[deme] && !self.step_by_step && self.queue.is_empty() {
             return self.lockstep(model, g, time, deme, rng);
         }
         let mut steps = 0;
@@ -246,37 +259,38 @@ impl Simulator {
         deme: usize,
         rng: &mut R,
     ) -> u64 {
+        let (next, taken) = self.parent(model, g, node, jumps, time, deme, rng);
+        if let Some(e) = next {
+            self.queue.push(e);
+        }
+        taken
+    }
+
+    /// Draws the parent of the individual at (deme, time): the lineage's next entry, or `None`
+    /// when it stops (a founder, or beyond the horizon: then it is a root), and the steps taken.
+    #[inline(always)]
+    #[allow(clippy::too_many_arguments)]
+    fn parent<R: Rng + ?Sized>(
+        &self,
+        model: &Model,
+        g: &mut Genealogy,
+        node: u32,
+        jumps: u64,
+        time: u64,
+        deme: usize,
+        rng: &mut R,
+    ) -> (Option<Entry>, u64) {
         let Some(r) = model.dormancy[deme].sample_at(time, rng) else {
             g.add_root(node);
-            return 0;
+            return (None, 0);
         };
         let to = model.parent_deme(deme, time, rng);
         let t = time.saturating_add(r);
         if t > model.horizon {
             g.add_root(node);
-            return 1;
+            return (None, 1);
         }
-        self.heap.push(Reverse(Entry { key: model.key(t, to), node, jumps: jumps + 1, sample: false }));
-        1
-    }
-}
-
-/// Collects `top` (already popped) and every queued entry with the same key into `group`:
-/// all lineages that landed on one (deme, generation). Shared with the recombination engine.
-pub(crate) fn pop_group<E: Ord + Copy>(
-    heap: &mut BinaryHeap<Reverse<E>>,
-    top: E,
-    key: impl Fn(&E) -> u64,
-    group: &mut Vec<E>,
-) {
-    group.clear();
-    group.push(top);
-    while let Some(&Reverse(e)) = heap.peek() {
-        if key(&e) != key(&top) {
-            break;
-        }
-        group.push(e);
-        heap.pop();
+        (Some(Entry { key: model.key(t, to), node, jumps: jumps + 1, sample: false }), 1)
     }
 }
 

@@ -33,6 +33,7 @@
 pub mod approx;
 pub mod arg;
 pub mod exact;
+mod queue;
 
 pub use exact::{Simulator, simulate};
 

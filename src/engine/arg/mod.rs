@@ -55,13 +55,12 @@ pub use crate::genealogy::LocalTree;
 
 pub use crate::scenario::{ArgConfig, ArgError};
 
+use super::queue::{Keyed, Queue};
 use crate::dormancy::Dormancy;
 use crate::genealogy::Node;
 use crate::scenario::{SampleKind, Scenario};
 use rand::{Rng, RngExt};
 use rand_distr::Exp1;
-use std::cmp::Reverse;
-use std::collections::BinaryHeap;
 
 /// The ancestry of a sample along a sequence: its local trees and recombination counts.
 #[derive(Debug, Clone)]
@@ -175,8 +174,8 @@ struct Seg {
     count: u32,
 }
 
-/// A lineage waiting at (time, deme). Orders as the engine's entries: key, then node.
-#[derive(Debug, Clone, Copy, PartialEq, Eq, PartialOrd, Ord)]
+/// A lineage waiting at (time, deme).
+#[derive(Debug, Clone, Copy, PartialEq, Eq)]
 struct Entry {
     /// time * n_demes + deme.
     key: u64,
@@ -186,6 +185,13 @@ struct Entry {
     id: u32,
     /// A sampled individual (an occupied seat of its generation).
     sample: bool,
+}
+
+impl Keyed for Entry {
+    #[inline(always)]
+    fn key(&self) -> u64 {
+        self.key
+    }
 }
 
 /// A piece of a local tree: an edge over the sites [left, right).
@@ -209,7 +215,7 @@ pub(crate) struct RootRec {
 /// Simulates ancestral recombination graphs; owns scratch buffers reused across replicates.
 #[derive(Debug, Default)]
 pub struct ArgSimulator {
-    heap: BinaryHeap<Reverse<Entry>>,
+    queue: Queue<Entry>,
     slab: Vec<Vec<Seg>>,
     free: Vec<u32>,
     group: Vec<Entry>,
@@ -256,7 +262,7 @@ impl ArgSimulator {
             self.slab[id as usize].push(full(i));
             match s.kind {
                 SampleKind::Population => {
-                    self.heap.push(Reverse(Entry { key: model.key(s.time, s.deme), node: i as u32, id, sample: true }))
+                    self.queue.push(Entry { key: model.key(s.time, s.deme), node: i as u32, id, sample: true })
                 }
                 SampleKind::Seedbank => {
                     // The seed was made a + 1 generations before sampling, as in the engine.
@@ -265,18 +271,20 @@ impl ArgSimulator {
                 }
             }
         }
-        while let Some(Reverse(top)) = self.heap.pop() {
-            if self.heap.is_empty() {
+        while let Some(&top) = self.queue.peek() {
+            if self.queue.len() == 1 {
                 // Nothing left to meet: the material can never coalesce again.
+                self.queue.pop();
                 self.stop(top.id);
                 break;
             }
             let (time, deme) = model.split(top.key);
-            if !top.sample && self.heap.peek().is_none_or(|Reverse(e)| e.key != top.key) {
+            if !top.sample && !self.queue.top_key_shared() {
+                self.queue.pop();
                 self.step(&model, top.id, time, deme, rng);
                 continue;
             }
-            super::exact::pop_group(&mut self.heap, top, |e| e.key, &mut self.group);
+            self.queue.pop_group(&mut self.group);
             self.seat_group(&model, n as u32, time, deme, rng);
         }
         self.split_gaps.sort_unstable();
@@ -301,7 +309,7 @@ impl ArgSimulator {
     }
 
     fn reset(&mut self) {
-        self.heap.clear();
+        self.queue.clear();
         for s in &mut self.slab {
             s.clear();
         }
@@ -493,7 +501,7 @@ impl ArgSimulator {
                 s.jumps += 1;
             }
             let node = segs[0].node;
-            self.heap.push(Reverse(Entry { key: model.key(to_time, to), node, id: part, sample: false }));
+            self.queue.push(Entry { key: model.key(to_time, to), node, id: part, sample: false });
         }
     }
 
