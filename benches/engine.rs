@@ -127,10 +127,10 @@ fn geometric_sampler() {
         "{:<8} {:>10} {:>10} {:>10} {:>12} {:>12}",
         "mean", "seedline", "previous", "one-log", "prev/ours", "ours/one-log"
     );
-    for mean in [2.0, 3.5, 5.0, 50.0] {
+    for mean in [2.0f64, 3.5, 5.0, 50.0] {
         let ours = seedline::dormancy::Geometric::new(mean).unwrap();
         let previous = rand_distr::Geometric::new(1.0 / mean).unwrap();
-        let ln_q = (-1.0 / mean as f64).ln_1p();
+        let ln_q = (-1.0 / mean).ln_1p();
         let mut rng = ChaCha8Rng::seed_from_u64(4);
         let n = 2_000_000;
         let mut time = |f: &mut dyn FnMut(&mut ChaCha8Rng) -> u64| {
