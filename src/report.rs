@@ -300,9 +300,12 @@ pub struct SimulateOptions {
 /// columns of [`crate::stats::stat_columns`]; with several loci also the mean and variance
 /// across loci of π, S and Tajima's D. With several loci `tmrca` and `total_length` are means
 /// over loci (`tmrca` empty if any locus is a forest), `roots` the largest number of roots
-/// and `jumps` the sum. With recombination `breakpoints` comes last (summed over loci), and
-/// `tmrca`, `total_length` of a locus are means over its local trees weighted by their
-/// number of sites ([`crate::batch::LocusOutcome`]).
+/// and `jumps` the sum. With recombination `breakpoints` and `crossovers` come last (summed
+/// over loci): the positions where the genealogy (topology or node times) changes
+/// ([`crate::engine::arg::Arg::breakpoints`]), and every crossover on the genealogy of the
+/// sample, visible or not ([`crate::engine::arg::Arg::tree_crossovers`]); `tmrca`,
+/// `total_length` of a locus are means over its local trees weighted by their number of
+/// sites ([`crate::batch::LocusOutcome`]).
 pub fn replicate_columns(scenario: &crate::scenario::Scenario) -> Vec<String> {
     let mut cols: Vec<String> = BASE_COLUMNS.iter().map(|s| s.to_string()).collect();
     if scenario.mutation().is_some() {
@@ -317,6 +320,7 @@ pub fn replicate_columns(scenario: &crate::scenario::Scenario) -> Vec<String> {
     }
     if scenario.recombination().is_some() {
         cols.push("breakpoints".to_string());
+        cols.push("crossovers".to_string());
     }
     cols
 }
@@ -360,6 +364,7 @@ pub fn replicate_values(replicate: u64, loci: &[crate::batch::LocusOutcome], n_d
     }
     if loci.iter().any(|l| l.breakpoints.is_some()) {
         v.push(Some(loci.iter().filter_map(|l| l.breakpoints).sum::<u64>() as f64));
+        v.push(Some(loci.iter().filter_map(|l| l.tree_crossovers).sum::<u64>() as f64));
     }
     v
 }

@@ -292,7 +292,7 @@ fn simulate_writes_ld_decay_and_is_identical_for_any_thread_count() {
     assert_eq!(one, run(2), "outputs differ between 1 and 2 threads");
     let (table, trees, ld) = one;
     let header: Vec<&str> = table.lines().next().unwrap().split('\t').collect();
-    assert_eq!(header.last(), Some(&"breakpoints"));
+    assert_eq!(&header[header.len() - 2..], &["breakpoints", "crossovers"]);
     assert_eq!(&header[..5], &["replicate", "tmrca", "roots", "total_length", "jumps"]);
     assert!(trees.lines().next().unwrap().starts_with("[replicate 0 locus 1 sites 0-"), "{}", &trees[..60]);
     let rows: Vec<(u64, u64, u64, Option<f64>)> = ld
@@ -323,4 +323,85 @@ fn distance_bins_cover_the_sequence() {
     assert_eq!(batch::ld_bins(10), [1, 2, 5, 10]);
     assert_eq!(batch::ld_bins(2), [1, 2]);
     assert_eq!(batch::ld_bins(1), [1, 2]);
+}
+
+/// Expected invisible crossovers per unit of rho: sum_{k=2}^n F(k)/(k-1), with F(k) the
+/// chance that a lineage detached from a branch while k lineages exist re-joins that branch
+/// before the branch ends (see `breakpoints_follow_the_smc_prime_rate_without_dormancy`).
+fn invisible_per_rho(n: u32) -> f64 {
+    let mut f = 0.0;
+    let mut sum = 0.0;
+    for k in 2..=n {
+        let k = k as f64;
+        f = 2.0 / (k * (k + 1.0)) + (k - 1.0) * (k - 2.0) / (k * (k + 1.0)) * f;
+        sum += f / (k - 1.0);
+    }
+    sum
+}
+
+#[test]
+fn breakpoints_follow_the_smc_prime_rate_without_dormancy() {
+    // A crossover on the genealogy of the sample (rho a_n of them: Hudson & Kaplan 1985) changes
+    // the tree unless the detached lineage re-joins the branch it left before that branch ends;
+    // to first order in the per-gap rate this is exact, and it is the SMC' picture (Marjoram &
+    // Wall 2006, BMC Genet. 7:16 [M]). Derived here: a lineage detached at a time when k lineages
+    // exist meets each of them (its own branch included) at rate 1, so the chance F(k) to meet
+    // its own branch first satisfies, over the rest of the epoch (length Exp(C(k,2))) and the
+    // next coalescence (which ends the branch with chance 2/k),
+    //   F(k) = 2/(k(k+1)) + (k-1)(k-2)/(k(k+1)) F(k-1),   F(2) = 1/3,
+    // and E[breakpoints] = rho (a_n - sum_{k<=n} F(k)/(k-1)) = rho (a_n - 2(n-1)/(3n))
+    // (closed form checked against the recursion below): 2 rho / 3 for n = 2.
+    for n in [2u32, 3, 6, 12, 40] {
+        let closed = 2.0 * (n as f64 - 1.0) / (3.0 * n as f64);
+        assert!((invisible_per_rho(n) - closed).abs() < 1e-12, "n = {n}");
+    }
+    // N = 1000 (discreteness O(1/N) = 0.1%), L = 2001 sites, rho = 8 (0.004 per gap: two
+    // crossovers in one gap are negligible).
+    let (n_pop, sites, rho) = (1000, 2001, 8.0);
+    for (n, seed) in [(2u64, 21), (6, 22)] {
+        let s = scenario(seed, n_pop, n, sites, 0.0, rate_for(rho, n_pop, sites));
+        let out = outcomes(&s, 2000, Keep::default());
+        let b: Vec<f64> = out.iter().map(|o| o.breakpoints.unwrap() as f64).collect();
+        let expected = rho * (harmonic(n as u32) - invisible_per_rho(n as u32));
+        eprintln!(
+            "n = {n}: breakpoints {:?} (mean, se), SMC' {expected}, rho a_n {}",
+            mean_se(&b),
+            rho * harmonic(n as u32)
+        );
+        assert_close(&format!("breakpoints, n = {n}"), &b, expected, 4.0);
+    }
+}
+
+#[test]
+fn breakpoints_under_dormancy_count_visible_changes_with_the_scaled_rho() {
+    // With dormancy of finite mean the genealogy is the KKL time-changed coalescent (time
+    // N E[R]^2/d generations per unit) and crossovers happen only at reproduction events,
+    // 1/E[R] per lineage per generation: rho_eff = 2 N r (L-1) E[R] / d (documented on
+    // `Arg::breakpoints`). Geometric mean 2 (E[R] = 2, d = 1), N = 1000, n = 4, rho = 4:
+    // rho_eff = 8 and E[breakpoints] = 8 (a_4 - 1/2) = 10.667 (formula of the test above).
+    // Adjacent trees that differ only in the jumps of an edge are not breakpoints: they
+    // exist (the local trees outnumber the breakpoints) but are not counted.
+    let (n_pop, sites, rho) = (1000u64, 2001u64, 4.0);
+    let yaml = format!(
+        "seed: 23\ndemes: [{{name: a, size: {n_pop}, dormancy: {{law: geometric, mean: 2}}}}]\n\
+         samples: [{{deme: a, count: 4}}]\nmutation: {{rate: 0.0, sites: {sites}}}\nrecombination: {{rate: {:e}}}\n",
+        rate_for(rho, n_pop, sites)
+    );
+    let s = Scenario::from_yaml_str(&yaml, "test").unwrap();
+    let key = master_key(s.seed());
+    let config = *s.recombination().unwrap();
+    let runs: Vec<(f64, f64)> = (0..2000u64)
+        .into_par_iter()
+        .map(|r| {
+            let arg = ArgSimulator::new().simulate(&s, &config, &mut locus_rng(&key, r, 0));
+            (arg.breakpoints() as f64, (arg.trees().len() - 1) as f64)
+        })
+        .collect();
+    let b: Vec<f64> = runs.iter().map(|r| r.0).collect();
+    let all: Vec<f64> = runs.iter().map(|r| r.1).collect();
+    let rho_eff = rho * 2.0;
+    let expected = rho_eff * (harmonic(4) - invisible_per_rho(4));
+    eprintln!("breakpoints {:?}, tree changes with jumps {:?}, expected {expected}", mean_se(&b), mean_se(&all));
+    assert_close("breakpoints under dormancy", &b, expected, 4.0);
+    assert!(mean_se(&all).0 > mean_se(&b).0 + 1.0, "jump-only changes should be frequent under dormancy");
 }

@@ -45,7 +45,7 @@
 //! let config = ArgConfig::new(100, 1e-4).unwrap();
 //! let mut rng = batch::replicate_rng(&batch::master_key(scenario.seed()), 0);
 //! let arg = ArgSimulator::new().simulate(&scenario, &config, &mut rng);
-//! assert_eq!(arg.trees().len(), arg.breakpoints() + 1);
+//! assert!(arg.breakpoints() < arg.trees().len());
 //! assert!(arg.trees().iter().all(|t| t.genealogy().is_tree()));
 //! ```
 
@@ -70,6 +70,7 @@ pub struct Arg {
     trees: Vec<LocalTree>,
     recombination_events: u64,
     tree_crossovers: u64,
+    breakpoints: usize,
     splits: Vec<(u64, u32)>,
     steps: u64,
     n_nodes: usize,
@@ -88,6 +89,7 @@ impl Arg {
 
     /// The local trees, left to right; they tile `[0, L)`. Adjacent trees always differ
     /// (in topology, node times or jumps on some edge): equal neighbours are one interval.
+    /// Only changes of topology or node times are [`Arg::breakpoints`].
     pub fn trees(&self) -> &[LocalTree] {
         &self.trees
     }
@@ -99,11 +101,23 @@ impl Arg {
         &self.trees[i]
     }
 
-    /// Recombination breakpoints: distinct positions where the local tree changes
-    /// (`trees().len() - 1`). Crossovers whose two sides end up in equal trees are invisible
-    /// and not counted here.
+    /// Recombination breakpoints: the positions where the genealogy a user can see (topology
+    /// or node times) changes between adjacent sites. Adjacent local trees that differ only
+    /// in the jumps of some edge (the same genealogy through other dormant periods) are not
+    /// a breakpoint, nor are crossovers whose two sides end up in equal trees; so
+    /// `breakpoints() <= trees().len() - 1`, equal without dormancy.
+    ///
+    /// In the coalescent limit without dormancy, with rho = 2 N r (L - 1), every crossover on
+    /// the marginal trees (about rho a_n, [`Arg::tree_crossovers`]) changes the tree unless its
+    /// detached lineage re-joins the branch it left (the SMC' picture of Marjoram & Wall 2006):
+    /// ```text
+    /// E[breakpoints] = rho (a_n - 2 (n - 1) / (3 n))       (n = 2: 2 rho / 3)
+    /// ```
+    /// With dormancy of finite mean the limit is the same with rho_eff = rho E[R] / d (d the
+    /// gcd of the support of R): crossovers happen only at reproduction events, which a
+    /// lineage makes at rate 1/E[R] per generation, while time runs E[R]² / d slower (KKL).
     pub fn breakpoints(&self) -> usize {
-        self.trees.len() - 1
+        self.breakpoints
     }
 
     /// Crossover events in the ancestry: reproduction events whose ancestral material was
@@ -295,13 +309,14 @@ impl ArgSimulator {
                 _ => splits.push((g, 1)),
             }
         }
-        let trees = trees::build(n, model.sites, &self.nodes, &mut self.edges, &mut self.roots);
+        let (trees, breakpoints) = trees::build(n, model.sites, &self.nodes, &mut self.edges, &mut self.roots);
         Arg {
             sites: model.sites,
             n_samples: n,
             trees,
             recombination_events: self.recombination_events,
             tree_crossovers: self.tree_crossovers,
+            breakpoints,
             splits,
             steps: self.steps,
             n_nodes: self.nodes.len(),

@@ -6,6 +6,10 @@
 //! labelled tree with the same jumps on every edge, even if made of different ancestral
 //! individuals: a tree node is identified by (smallest sample below it, time), which is
 //! unique (two nodes above one sample are on one root path, hence at different times).
+//! Neighbours that differ only in the jumps of some edge (the same genealogy reached through
+//! other dormant periods) stay apart, since mutation rates may differ between dormant and
+//! reproducing generations, but the change is not a breakpoint a user can see: the visible
+//! breakpoints count the changes of topology or node times only.
 
 use super::{EdgeRec, RootRec};
 use crate::genealogy::{Genealogy, LocalTree, Node};
@@ -121,7 +125,7 @@ pub(crate) fn build(
     nodes: &[Node],
     edges: &mut Vec<EdgeRec>,
     roots: &mut Vec<RootRec>,
-) -> Vec<LocalTree> {
+) -> (Vec<LocalTree>, usize) {
     join_edges(edges);
     join_roots(roots);
     let mut cuts: Vec<u64> = Vec::with_capacity(2 * (edges.len() + roots.len()) + 2);
@@ -146,6 +150,7 @@ pub(crate) fn build(
     let (mut ie, mut ir) = (0, 0);
     let mut trees: Vec<LocalTree> = Vec::new();
     let (mut canon, mut prev) = (Vec::new(), Vec::new());
+    let mut visible = 0;
     for w in cuts.windows(2) {
         let (x, y) = (w[0], w[1]);
         active.retain(|e| e.right > x);
@@ -162,11 +167,17 @@ pub(crate) fn build(
         match trees.last_mut() {
             Some(t) if canon == prev => t.extend_to(y),
             _ => {
+                // Rows sort by (parent, child) before jumps, and each child has one row, so
+                // the genealogy without jumps changed iff the rows differ outside the jumps.
+                let dated = |r: &Row| (r.0, r.1, r.2, r.3);
+                if !trees.is_empty() && !canon.iter().map(dated).eq(prev.iter().map(dated)) {
+                    visible += 1;
+                }
                 let genealogy = sweep.genealogy(&active, &active_roots);
                 trees.push(LocalTree::new(x, y, genealogy));
                 std::mem::swap(&mut canon, &mut prev);
             }
         }
     }
-    trees
+    (trees, visible)
 }
