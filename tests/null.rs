@@ -135,7 +135,7 @@ fn a_killed_run_leaves_only_complete_chunks_and_resumes() {
         .unwrap();
     assert!(o.status.success());
     let o = Command::new(env!("CARGO_BIN_EXE_seedline"))
-        .args(["null", "s.yaml", "--replicates", "400", "--chunk", "20", "--out", "clean"])
+        .args(["null", "s.yaml", "--replicates", "400", "--chunk", "20", "--out", "clean", "--engine", "exact"])
         .current_dir(&d)
         .output()
         .unwrap();
