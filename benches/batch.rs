@@ -229,8 +229,9 @@ fn cpu_seconds() -> f64 {
     let stat = std::fs::read_to_string("/proc/self/stat").unwrap_or_default();
     let after = stat.rsplit_once(')').map_or("", |x| x.1);
     let f: Vec<f64> = after.split_whitespace().filter_map(|x| x.parse().ok()).collect();
-    // After the command name: state, ppid, ... utime is the 12th number, stime the 13th.
-    f.get(11).zip(f.get(12)).map_or(f64::NAN, |(u, s)| (u + s) / 100.0)
+    // After the command name: state (not a number), then ppid ... utime is field 14 of the
+    // line, the 11th number here, and stime the 12th.
+    f.get(10).zip(f.get(11)).map_or(f64::NAN, |(u, s)| (u + s) / 100.0)
 }
 
 /// The user's task of issue 14: a null of 10 000 replicates of 100 loci, n = 100, N = 1e5,
