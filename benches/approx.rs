@@ -8,8 +8,8 @@
 use criterion::{Criterion, criterion_group};
 use rand::{Rng, RngExt, SeedableRng, rngs::ChaCha8Rng};
 use rand_distr::{Distribution, Exp1};
-use seedline::approx::ApproxModel;
 use seedline::batch::{master_key, replicate_rng};
+use seedline::engine::approx::ApproxModel;
 use seedline::scenario::Scenario;
 use std::hint::black_box;
 use std::time::Instant;

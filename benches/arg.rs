@@ -7,8 +7,8 @@
 //! least squares. `--slope-only` skips criterion.
 
 use criterion::{Criterion, criterion_group};
-use seedline::arg::{ArgConfig, ArgSimulator};
 use seedline::batch::{master_key, replicate_rng};
+use seedline::engine::arg::{ArgConfig, ArgSimulator};
 use seedline::scenario::Scenario;
 use std::hint::black_box;
 use std::time::Instant;

@@ -2,12 +2,13 @@
 //! scaling with N and n (fitted slopes), threads, null throughput, and peak memory.
 //!
 //! Run `cargo bench --bench batch` (all sections; a few minutes) or pass a section name:
-//! `forward`, `scaling`, `threads`, `null`, `loci`, `memory`. Figures go to docs/performance.md.
+//! `forward`, `scaling`, `threads`, `null`, `loci`, `memory`, `task`. Figures go to
+//! docs/performance.md. `memory` reads the process's peak RSS: run it alone.
 
 use rand::{RngExt, SeedableRng, rngs::ChaCha8Rng};
 use seedline::batch::{BatchConfig, Keep, master_key, replicate_rng, simulate_replicate};
 use seedline::dormancy::LookBack;
-use seedline::engine::Simulator;
+use seedline::engine::{Engine, EngineChoice, Scratch, Simulator};
 use seedline::scenario::Scenario;
 use std::hint::black_box;
 use std::time::Instant;
@@ -131,7 +132,7 @@ fn batch_seconds(s: &Scenario, reps: u64, threads: usize) -> f64 {
         s,
         &idx,
         BatchConfig { threads, chunk: 256 },
-        |sim, sc, rep, _| simulate_replicate(sim, sc, &key, rep, Keep::default(), &labels, None).unwrap(),
+        |sim, sc, rep, _| simulate_replicate(&Engine::exact(sc), sim, &key, rep, Keep::default(), &labels).unwrap(),
         |_, r| {
             black_box(r);
             Ok(())
@@ -167,15 +168,15 @@ fn loci() {
     let many = scenario(&format!("loci: 1000\n{base}"));
     let key = master_key(1);
     let labels: Vec<String> = one.samples().iter().map(|x| x.label.clone()).collect();
-    let mut sim = Simulator::new();
+    let mut sim = seedline::engine::Scratch::default();
     let t0 = Instant::now();
     for rep in 0..200 {
-        black_box(simulate_replicate(&mut sim, &one, &key, rep, Keep::default(), &labels, None).unwrap());
+        black_box(simulate_replicate(&Engine::exact(&one), &mut sim, &key, rep, Keep::default(), &labels).unwrap());
     }
     let single = t0.elapsed().as_secs_f64() / 200.0;
     let t1 = Instant::now();
     for rep in 0..3 {
-        black_box(simulate_replicate(&mut sim, &many, &key, rep, Keep::default(), &labels, None).unwrap());
+        black_box(simulate_replicate(&Engine::exact(&many), &mut sim, &key, rep, Keep::default(), &labels).unwrap());
     }
     let thousand = t1.elapsed().as_secs_f64() / 3.0;
     println!(
@@ -191,6 +192,7 @@ fn peak_rss_kib() -> Option<u64> {
 
 fn memory() {
     let before = peak_rss_kib();
+    let mib = |k: Option<u64>| k.map_or("?".into(), |k| (k / 1024).to_string());
     let s = scenario("demes: [{name: a, size: 1000000}]\nsamples: [{deme: a, count: 100000}]\n");
     let t0 = Instant::now();
     let g = Simulator::new().simulate(&s, &mut replicate_rng(&master_key(1), 0));
@@ -199,8 +201,91 @@ fn memory() {
         "memory: n = 1e5, N = 1e6, no dormancy: {} nodes, {:.1} s, peak RSS {} MiB (before the run {} MiB)",
         g.graph().node_count(),
         t0.elapsed().as_secs_f64(),
-        after.map_or("?".into(), |k| (k / 1024).to_string()),
-        before.map_or("?".into(), |k| (k / 1024).to_string())
+        mib(after),
+        mib(before)
+    );
+    drop(g);
+    // With mutations (theta = 2 N mu L = 10), through the whole replicate: genealogy,
+    // placement (carriers from a depth-first layout, O(n) per tree) and statistics.
+    let s = scenario(
+        "demes: [{name: a, size: 1000000}]\nsamples: [{deme: a, count: 100000}]\nmutation: {rate: 5.0e-9, sites: 1000}\n",
+    );
+    let labels: Vec<String> = s.samples().iter().map(|x| x.label.clone()).collect();
+    let t0 = Instant::now();
+    let loci =
+        simulate_replicate(&Engine::exact(&s), &mut Scratch::default(), &master_key(1), 0, Keep::default(), &labels)
+            .unwrap();
+    println!(
+        "memory: the same with mutations (theta = 10, S = {}) and statistics: {:.1} s, peak RSS {} MiB",
+        loci[0].stats.as_ref().map_or(0, |x| x.segregating_sites),
+        t0.elapsed().as_secs_f64(),
+        mib(peak_rss_kib())
+    );
+}
+
+/// CPU seconds (user + system) of this process so far, all threads (Linux: /proc/self/stat,
+/// fields 14 and 15 in clock ticks of 1/100 s).
+fn cpu_seconds() -> f64 {
+    let stat = std::fs::read_to_string("/proc/self/stat").unwrap_or_default();
+    let after = stat.rsplit_once(')').map_or("", |x| x.1);
+    let f: Vec<f64> = after.split_whitespace().filter_map(|x| x.parse().ok()).collect();
+    // After the command name: state (not a number), then ppid ... utime is field 14 of the
+    // line, the 11th number here, and stime the 12th.
+    f.get(10).zip(f.get(11)).map_or(f64::NAN, |(u, s)| (u + s) / 100.0)
+}
+
+/// The user's task of issue 14: a null of 10 000 replicates of 100 loci, n = 100, N = 1e5,
+/// geometric dormancy of mean 5, through `null` (`null::run`) with `--engine auto`, on 2
+/// threads; against the exact engine on the same loci (few of them: ~0.5 s each). Cost per
+/// locus of both, and the whole task extrapolated from each.
+fn task() {
+    let yaml = |loci: u32| {
+        format!(
+            "seed: 1\nloci: {loci}\ndemes: [{{name: pond, size: 100000, dormancy: {{law: geometric, mean: 5}}}}]\n\
+             samples: [{{deme: pond, count: 100}}]\nmutation: {{rate: 1.0e-9, sites: 1000}}\n"
+        )
+    };
+    let run = |s: &Scenario, reps: u64, engine: EngineChoice| {
+        let dir = std::env::temp_dir().join(format!("seedline-bench-task-{}-{engine}", std::process::id()));
+        let _ = std::fs::remove_dir_all(&dir);
+        let cfg = seedline::null::NullConfig {
+            replicates: reps,
+            shard: (0, 1),
+            chunk: 1000,
+            count: seedline::mutation::Count::Poisson,
+            max_new_chunks: None,
+            engine,
+        };
+        let (w0, c0) = (Instant::now(), cpu_seconds());
+        let r = seedline::null::run(s, cfg, BatchConfig { threads: 2, chunk: 256 }, &dir, &|_| {}).unwrap();
+        let (wall, cpu) = (w0.elapsed().as_secs_f64(), cpu_seconds() - c0);
+        std::fs::remove_dir_all(&dir).unwrap();
+        (wall, cpu, r.engine.reason)
+    };
+    let many = scenario(&yaml(100));
+    let few = scenario(&yaml(2));
+    let (reps_auto, reps_exact) = (500u64, 2u64);
+    let (aw, ac, why) = run(&many, reps_auto, EngineChoice::Auto);
+    let (ew, ec, _) = run(&few, reps_exact, EngineChoice::Exact);
+    let loci_auto = (reps_auto * 100) as f64;
+    let loci_exact = (reps_exact * 2) as f64;
+    let total = 1e6;
+    println!("task: null, 100 loci x n = 100, N = 1e5, geometric mean 5, 2 threads; auto: {why}");
+    println!(
+        "task: auto {:.2} us wall, {:.2} us cpu per locus; exact {:.0} ms wall, {:.0} ms cpu per locus; exact/auto per locus (cpu) {:.0}",
+        aw / loci_auto * 1e6,
+        ac / loci_auto * 1e6,
+        ew / loci_exact * 1e3,
+        ec / loci_exact * 1e3,
+        (ec / loci_exact) / (ac / loci_auto)
+    );
+    println!(
+        "task: 10 000 x 100 loci extrapolated: auto {:.0} s wall ({:.0} s cpu, {:.0} s on 2 idle cores); exact {:.1} h wall ({:.1} h on 2 idle cores)",
+        aw / loci_auto * total,
+        ac / loci_auto * total,
+        ac / loci_auto * total / 2.0,
+        ew / loci_exact * total / 3600.0,
+        ec / loci_exact * total / 3600.0 / 2.0
     );
 }
 
@@ -221,5 +306,8 @@ fn main() {
     }
     if want("memory") {
         memory();
+    }
+    if want("task") {
+        task();
     }
 }

@@ -5,8 +5,8 @@
 //! result does not depend on the number of threads, on the order in which threads pick up
 //! work, or on which other replicates are run (shards, resumed runs).
 
-use crate::arg::{Arg, ArgSimulator};
-use crate::engine::Simulator;
+use crate::engine::arg::Arg;
+use crate::engine::{Ancestry, Engine, Scratch};
 use crate::genealogy::Genealogy;
 use crate::scenario::Scenario;
 use rand::SeedableRng;
@@ -74,7 +74,7 @@ impl Error {
 /// Runs `per_replicate` for every replicate index of `replicates`, in parallel, and pushes
 /// the results to `sink` in the order of `replicates`.
 ///
-/// `per_replicate` receives a simulator (scratch buffers reused within a worker), the
+/// `per_replicate` receives the engines' scratch buffers (reused within a worker), the
 /// replicate index and that replicate's own random stream.
 pub fn run<T, F, S>(
     scenario: &Scenario,
@@ -85,7 +85,7 @@ pub fn run<T, F, S>(
 ) -> Result<(), Error>
 where
     T: Send,
-    F: Fn(&mut Simulator, &Scenario, u64, &mut ChaCha8Rng) -> T + Sync,
+    F: Fn(&mut Scratch, &Scenario, u64, &mut ChaCha8Rng) -> T + Sync,
     S: FnMut(u64, T) -> anyhow::Result<()>,
 {
     let pool = rayon::ThreadPoolBuilder::new()
@@ -97,7 +97,7 @@ where
         let results: Vec<T> = pool.install(|| {
             chunk
                 .par_iter()
-                .map_init(Simulator::new, |sim, &rep| {
+                .map_init(Scratch::default, |sim, &rep| {
                     let mut rng = replicate_rng(&key, rep);
                     per_replicate(sim, scenario, rep, &mut rng)
                 })
@@ -156,7 +156,7 @@ pub struct Keep {
     pub trees: bool,
     /// Positions and haplotypes of the mutations.
     pub mutations: bool,
-    /// r² by distance ([`ld_bins`]), with recombination and a mutation model.
+    /// r² by distance ([`ld_bins`]) within each locus, with a mutation model.
     pub ld: bool,
 }
 
@@ -186,7 +186,7 @@ pub struct LocusOutcome {
     /// Crossovers on the marginal trees ([`Arg::tree_crossovers`]), with recombination.
     pub tree_crossovers: Option<u64>,
     /// r² by distance over [`ld_bins`] of the sequence, when kept.
-    pub ld: Option<Vec<crate::arg::LdBin>>,
+    pub ld: Option<Vec<crate::stats::ld::LdBin>>,
 }
 
 impl LocusOutcome {
@@ -250,24 +250,20 @@ pub fn ld_bins(sites: u64) -> Vec<u64> {
     edges
 }
 
-/// Simulates every locus of one replicate: genealogy (the ARG engine when the scenario has
+/// Simulates every locus of one replicate with `engine` (local trees when the scenario has
 /// recombination), then mutations and statistics, each locus from its own stream
 /// [`locus_rng`]. Loci run in parallel when there are several.
-///
-/// `approx`: the continuous-time approximate engine to use instead of the exact one (see
-/// [`crate::approx`]), or `None` for the exact engine; it has no recombination, so it is
-/// only used without it.
 pub fn simulate_replicate(
-    sim: &mut Simulator,
-    scenario: &Scenario,
+    engine: &Engine,
+    scratch: &mut Scratch,
     key: &[u8; 32],
     replicate: u64,
     keep: Keep,
     labels: &[String],
-    approx: Option<&crate::approx::ApproxModel>,
 ) -> Result<Vec<LocusOutcome>, crate::mutation::Error> {
+    let scenario = engine.scenario();
     let demes: Vec<u32> = scenario.samples().iter().map(|s| s.deme as u32).collect();
-    let one = |sim: &mut Simulator, locus: u64| -> Result<LocusOutcome, crate::mutation::Error> {
+    let one = |scratch: &mut Scratch, locus: u64| -> Result<LocusOutcome, crate::mutation::Error> {
         let mut rng = locus_rng(key, replicate, locus);
         let mut newick = String::new();
         let tag = if scenario.loci() > 1 {
@@ -277,11 +273,10 @@ pub fn simulate_replicate(
         };
         // Each locus has its own length when the scenario lists them.
         let model = scenario.locus_mutation(locus);
-        let (mut out, mutations) = match scenario.locus_recombination(locus) {
-            Some(config) => {
-                let arg = ArgSimulator::new().simulate(scenario, &config, &mut rng);
+        let (mut out, mutations) = match engine.simulate(scratch, locus, &mut rng) {
+            Ancestry::Sequence(arg) => {
                 let mutations = match &model {
-                    Some(m) => Some(crate::mutation::place_along(&arg, m, demes.clone(), &mut rng)?),
+                    Some(m) => Some(crate::mutation::place_along(arg.trees(), m, demes.clone(), &mut rng)?),
                     None => None,
                 };
                 if keep.trees {
@@ -289,11 +284,7 @@ pub fn simulate_replicate(
                 }
                 (LocusOutcome::of_arg(&arg, None), mutations)
             }
-            None => {
-                let g = match approx {
-                    Some(model) => model.simulate(&mut rng),
-                    None => sim.simulate(scenario, &mut rng),
-                };
+            Ancestry::Tree(g) => {
                 let mutations = match &model {
                     Some(m) => Some(crate::mutation::place(&g, m, demes.clone(), &mut rng)?),
                     None => None,
@@ -306,19 +297,19 @@ pub fn simulate_replicate(
         };
         out.stats = mutations.as_ref().map(|m| crate::stats::SampleStats::from_haplotypes(&m.haplotypes));
         out.newick = keep.trees.then_some(newick);
-        if let (true, Some(config), Some(m)) = (keep.ld, scenario.recombination(), &mutations) {
+        if let (true, Some(model), Some(m)) = (keep.ld, &model, &mutations) {
             let h = &m.haplotypes;
             let rows: Vec<Vec<u8>> =
                 (0..h.samples()).map(|s| (0..h.sites()).map(|j| u8::from(h.get(s, j))).collect()).collect();
-            out.ld = Some(crate::arg::ld_decay(&m.positions, &rows, &ld_bins(config.sites())));
+            out.ld = Some(crate::stats::ld::ld_decay(&m.positions, &rows, &ld_bins(model.sites())));
         }
         out.mutations = if keep.mutations { mutations } else { None };
         Ok(out)
     };
     let loci = scenario.loci();
     if loci == 1 {
-        Ok(vec![one(sim, 0)?])
+        Ok(vec![one(scratch, 0)?])
     } else {
-        (0..loci).into_par_iter().map_init(Simulator::new, |s, locus| one(s, locus)).collect()
+        (0..loci).into_par_iter().map_init(Scratch::default, |s, locus| one(s, locus)).collect()
     }
 }

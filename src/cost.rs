@@ -241,7 +241,7 @@ pub fn preflight(
             )
         };
         let approx_ok = scenario.recombination().is_none()
-            && crate::approx::resolve(crate::approx::EngineChoice::Approx, scenario).is_ok();
+            && crate::engine::resolve(crate::engine::EngineChoice::Approx, scenario).is_ok();
         let advice = if approx_ok {
             "Use --engine approx (the continuous-time limit) or a smaller `horizon`".to_string()
         } else {

@@ -85,12 +85,15 @@ pub enum FamiliesError {
     /// The JSON summary could not be serialised.
     #[error("serialising families.json: {0}")]
     Json(#[from] serde_json::Error),
+    /// The requested engine cannot run the scenario.
+    #[error(transparent)]
+    Engine(#[from] crate::engine::Error),
 }
 
 impl FamiliesError {
     /// Whether the error is the user's input being wrong (the binary exits 2).
     pub fn is_bad_input(&self) -> bool {
-        matches!(self, FamiliesError::NotABlock(_))
+        matches!(self, FamiliesError::NotABlock(_) | FamiliesError::Engine(_))
     }
 }
 
@@ -116,11 +119,19 @@ pub struct Options {
     pub fit_from: usize,
     /// Bootstrap resamples of the replicates for the exponent's interval (0: no interval).
     pub bootstrap: usize,
+    /// The engine asked for (`--engine`); the genealogy of the block is that of one site.
+    pub engine: crate::engine::EngineChoice,
 }
 
 impl Default for Options {
     fn default() -> Self {
-        Options { colours: Colours::Pm1, max_pairs_per_lag: 1000, fit_from: 10, bootstrap: 400 }
+        Options {
+            colours: Colours::Pm1,
+            max_pairs_per_lag: 1000,
+            fit_from: 10,
+            bootstrap: 400,
+            engine: crate::engine::EngineChoice::Auto,
+        }
     }
 }
 
@@ -724,6 +735,8 @@ pub struct FamiliesReport {
     pub fit: Option<ExponentFit>,
     /// How the pieces were computed, in words.
     pub notes: Vec<String>,
+    /// The engine that ran and why.
+    pub engine: crate::engine::EngineDecision,
 }
 
 /// Runs every replicate of the scenario and pools the results (no I/O). `progress` is called
@@ -739,6 +752,7 @@ pub fn run(
     let len = block.len();
     let plan = Plan::new(len, options);
     let prediction = predict(scenario, &block, &plan)?;
+    let engine = crate::engine::Engine::new(scenario, options.engine)?;
     let reps: Vec<u64> = (0..scenario.replicates()).collect();
     let k = reps.len();
 
@@ -752,8 +766,8 @@ pub fn run(
         scenario,
         &reps,
         config,
-        |sim, sc, _, rng| {
-            let g = sim.simulate(sc, rng);
+        |scratch, _, _, rng| {
+            let g = engine.simulate_tree(scratch, rng);
             let r = analyse(&g, &block, &plan, rng);
             progress();
             r
@@ -904,6 +918,7 @@ pub fn run(
         coloured,
         fit,
         notes: notes(&plan, options, prediction.is_some()),
+        engine: engine.decision().clone(),
     })
 }
 

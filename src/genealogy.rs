@@ -241,6 +241,49 @@ impl Genealogy {
     }
 }
 
+/// The genealogy of the sites [left, right) of the sequence.
+#[derive(Debug, Clone)]
+pub struct LocalTree {
+    left: u64,
+    right: u64,
+    genealogy: Genealogy,
+}
+
+impl LocalTree {
+    /// First site of the interval.
+    pub fn left(&self) -> u64 {
+        self.left
+    }
+
+    /// One past the last site of the interval.
+    pub fn right(&self) -> u64 {
+        self.right
+    }
+
+    /// Number of sites the tree holds for, `right - left` (>= 1).
+    pub fn sites(&self) -> u64 {
+        self.right - self.left
+    }
+
+    /// The tree over `[left, right)` (made by the engines).
+    pub(crate) fn new(left: u64, right: u64, genealogy: Genealogy) -> Self {
+        debug_assert!(left < right);
+        LocalTree { left, right, genealogy }
+    }
+
+    /// Extends the interval to `[left, right)` (a neighbour with the same tree joins it).
+    pub(crate) fn extend_to(&mut self, right: u64) {
+        debug_assert!(right > self.right);
+        self.right = right;
+    }
+
+    /// The tree (a forest when some lineage stopped at the horizon or at a founder): samples
+    /// are nodes `0..n`, edges carry length in generations and jumps (reproduction events).
+    pub fn genealogy(&self) -> &Genealogy {
+        &self.genealogy
+    }
+}
+
 #[cfg(test)]
 mod tests {
     use super::*;

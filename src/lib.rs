@@ -24,8 +24,6 @@
 #![deny(missing_docs)]
 
 pub mod abc;
-pub mod approx;
-pub mod arg;
 pub mod batch;
 pub mod cost;
 pub mod demography;

@@ -66,9 +66,12 @@ enum Command {
         /// Also write loci.tsv with one row per locus
         #[arg(long)]
         loci_table: bool,
-        /// Engine: exact, approx (continuous-time limit; refused outside its domain) or auto
+        /// Also write ld.tsv: r² by distance within loci (all pairs of segregating sites)
+        #[arg(long)]
+        ld: bool,
+        /// Engine: exact, approx (continuous-time limit; refused outside its domain) or auto (approx where a limit holds)
         #[arg(long, default_value = "auto")]
-        engine: seedline::approx::EngineChoice,
+        engine: seedline::engine::EngineChoice,
     },
     /// Print what published theory predicts for the scenario, and why where nothing applies
     /// (for a hypothesis file: at the median of every prior)
@@ -124,6 +127,9 @@ enum Command {
         /// Law of the family types: pm1 (±1) or normal
         #[arg(long, default_value = "pm1", value_parser = ["pm1", "normal"])]
         colours: String,
+        /// Engine: exact, approx (continuous-time limit; refused outside its domain) or auto (approx where a limit holds)
+        #[arg(long, default_value = "auto")]
+        engine: seedline::engine::EngineChoice,
     },
     /// Build a null distribution of the statistics in chunks (resumable, shardable)
     #[command(after_help = NULL_EXAMPLES)]
@@ -159,6 +165,9 @@ enum Command {
         /// Worker threads (0 = one per core)
         #[arg(long, default_value_t = 0)]
         threads: usize,
+        /// Engine: exact, approx (continuous-time limit; refused outside its domain) or auto (approx where a limit holds); part of the run's settings
+        #[arg(long, default_value = "auto")]
+        engine: seedline::engine::EngineChoice,
     },
     /// Merge the directories of null shards into one null.tsv
     Merge {
@@ -207,6 +216,9 @@ enum Command {
         /// Worker threads (0 = one per core)
         #[arg(long, default_value_t = 0)]
         threads: usize,
+        /// Engine: exact, approx (continuous-time limit; refused outside its domain) or auto (approx where a limit holds), chosen for each draw from the priors
+        #[arg(long, default_value = "auto")]
+        engine: seedline::engine::EngineChoice,
         /// Output directory
         #[arg(long, default_value = "seedline-compare")]
         out: PathBuf,
@@ -246,6 +258,9 @@ enum Command {
         /// Worker threads (0 = one per core)
         #[arg(long, default_value_t = 0)]
         threads: usize,
+        /// Engine: exact, approx (continuous-time limit; refused outside its domain) or auto (approx where a limit holds), chosen for each design and draw from the priors
+        #[arg(long, default_value = "auto")]
+        engine: seedline::engine::EngineChoice,
         /// Output directory
         #[arg(long, default_value = "seedline-design")]
         out: PathBuf,
@@ -345,7 +360,9 @@ fn is_bad_input(e: &anyhow::Error) -> bool {
         c.is::<BadInput>()
             || c.is::<scenario::Error>()
             || c.is::<seedline::observed::Error>()
-            || c.is::<seedline::approx::ApproxError>()
+            || c.is::<seedline::engine::approx::ApproxError>()
+            || c.is::<seedline::engine::Error>()
+            || c.is::<seedline::null::EngineMismatch>()
             || c.is::<seedline::null::SettingsMismatch>()
             || c.is::<seedline::null::LayoutMismatch>()
             || c.is::<seedline::null::NullError>()
@@ -403,7 +420,7 @@ fn preflight(scenario: &Scenario, origin: &str, exact: bool, threads: usize, ui:
 fn run(cli: Cli) -> Result<()> {
     let ui = Ui { quiet: cli.quiet };
     match cli.command {
-        Command::Simulate { scenario, run, out, force, vcf, diploid, loci_table, engine } => {
+        Command::Simulate { scenario, run, out, force, vcf, diploid, loci_table, ld, engine } => {
             let (scenario, origin) = run.scenario(scenario.as_deref())?;
             if vcf && scenario.mutation().is_none() {
                 return Err(BadInput(format!(
@@ -411,8 +428,14 @@ fn run(cli: Cli) -> Result<()> {
                 ))
                 .into());
             }
-            let decision = seedline::approx::resolve(engine, &scenario)?;
-            let exact = decision.kind == seedline::approx::EngineKind::Exact;
+            if ld && scenario.mutation().is_none() {
+                return Err(BadInput(format!(
+                    "{origin}: --ld needs a mutation model: add `mutation: {{rate: ..., sites: ...}}` to the scenario"
+                ))
+                .into());
+            }
+            let decision = seedline::engine::resolve(engine, &scenario)?;
+            let exact = decision.kind == seedline::engine::EngineKind::Exact;
             preflight(&scenario, &origin, exact, run.threads, ui)?;
             let output = Output::begin(&out, "simulate", force.force)?;
             let bar = ui.progress("simulate", "replicates", scenario.replicates());
@@ -420,7 +443,7 @@ fn run(cli: Cli) -> Result<()> {
                 &scenario,
                 &origin,
                 run.batch(),
-                seedline::report::SimulateOptions { vcf, diploid, loci_table, engine },
+                seedline::report::SimulateOptions { vcf, diploid, loci_table, engine, ld },
                 output.staging(),
                 &|| bar.inc(1),
             )?;
@@ -485,7 +508,7 @@ fn run(cli: Cli) -> Result<()> {
             out!("{}wrote {wrote}\n", observed::render(&obs))?;
             Ok(())
         }
-        Command::Families { scenario, run, out, force, colours } => {
+        Command::Families { scenario, run, out, force, colours, engine } => {
             use seedline::families::{self, Colours, Options};
             let (scenario, origin) = run.scenario(Some(&scenario))?;
             preflight(&scenario, &origin, true, run.threads, ui)?;
@@ -493,15 +516,15 @@ fn run(cli: Cli) -> Result<()> {
             let output = Output::begin(&out, "families", force.force)?;
             let bar = ui.progress("families", "replicates", scenario.replicates());
             let config = run.batch();
-            let report =
-                families::run(&scenario, &origin, config, &Options { colours, ..Options::default() }, &|| bar.inc(1))
-                    .map_err(|e| {
-                    if e.is_bad_input() { anyhow::Error::new(BadInput(format!("{origin}: {e}"))) } else { e.into() }
-                })?;
+            let options = Options { colours, engine, ..Options::default() };
+            let report = families::run(&scenario, &origin, config, &options, &|| bar.inc(1)).map_err(|e| {
+                if e.is_bad_input() { anyhow::Error::new(BadInput(format!("{origin}: {e}"))) } else { e.into() }
+            })?;
             bar.finish();
             families::write_to_dir(&report, output.staging())?;
             output.commit()?;
             out!("{}", families::render_summary(&report))?;
+            out!("engine: {}\n", report.engine.reason)?;
             out!("wrote {}\n", families::FILES.map(|f| out.join(f).display().to_string()).join(", "))?;
             Ok(())
         }
@@ -517,6 +540,7 @@ fn run(cli: Cli) -> Result<()> {
             max_chunks,
             seed,
             threads,
+            engine,
         } => {
             use seedline::null;
             let shard = null::parse_shard(&shard).map_err(|e| BadInput(format!("{e:#}")))?;
@@ -526,6 +550,7 @@ fn run(cli: Cli) -> Result<()> {
                 chunk,
                 count: seedline::mutation::Count::Poisson,
                 max_new_chunks: max_chunks,
+                engine,
             };
             probe.check()?;
             let (mut raw, origin) = load_raw(Some(&scenario))?;
@@ -558,7 +583,8 @@ fn run(cli: Cli) -> Result<()> {
                 }
                 _ => seedline::mutation::Count::Poisson,
             };
-            preflight(&scenario, &origin, true, threads, ui)?;
+            let exact = seedline::engine::resolve(engine, &scenario)?.kind == seedline::engine::EngineKind::Exact;
+            preflight(&scenario, &origin, exact, threads, ui)?;
             null::claim_dir(&out, force.force)?;
             let cfg = null::NullConfig { count, ..probe };
             let bar = ui.progress("null", "replicates", cfg.shard_replicates());
@@ -580,6 +606,7 @@ fn run(cli: Cli) -> Result<()> {
                 shard.1,
                 report.shard_replicates
             )?;
+            out!("engine: {}\n", report.engine.reason)?;
             Ok(())
         }
         Command::Merge { dirs, out, force } => {
@@ -611,7 +638,18 @@ fn run(cli: Cli) -> Result<()> {
             )?;
             Ok(())
         }
-        Command::Compare { observed, hypotheses, simulations, tolerance, statistics, adjust, threads, out, force } => {
+        Command::Compare {
+            observed,
+            hypotheses,
+            simulations,
+            tolerance,
+            statistics,
+            adjust,
+            threads,
+            engine,
+            out,
+            force,
+        } => {
             use seedline::abc::{self, compare};
             let obs = abc::load_observed(&observed)?;
             let files: Vec<String> = hypotheses.iter().map(|p| p.display().to_string()).collect();
@@ -625,7 +663,7 @@ fn run(cli: Cli) -> Result<()> {
                 preflight_hypothesis(h, threads, ui)?;
             }
             let adjust = if adjust == "logistic" { compare::Adjust::Logistic } else { compare::Adjust::None };
-            let opts = compare::CompareOptions { simulations, tolerance, statistics, adjust, threads };
+            let opts = compare::CompareOptions { simulations, tolerance, statistics, adjust, threads, engine };
             let output = Output::begin(&out, "compare", force.force)?;
             let bar = ui.progress("compare", "simulations", simulations.saturating_mul(hyps.len() as u64));
             let result = compare::run(&obs, hyps, opts, &|| bar.inc(1))?;
@@ -633,6 +671,9 @@ fn run(cli: Cli) -> Result<()> {
             compare::write(&result, output.staging())?;
             output.commit()?;
             out!("{}", compare::render(&result))?;
+            for (h, e) in result.hypotheses.iter().zip(&result.engines) {
+                out!("engine for {}: {}\n", h.name, e.summary())?;
+            }
             out!("wrote results to {}\n", out.display())?;
             Ok(())
         }
@@ -647,6 +688,7 @@ fn run(cli: Cli) -> Result<()> {
             statistics,
             like,
             threads,
+            engine,
             out,
             force,
         } => {
@@ -676,8 +718,16 @@ fn run(cli: Cli) -> Result<()> {
             let text = std::fs::read_to_string(&designs)
                 .map_err(|e| BadInput(format!("cannot read designs file {origin}: {e}")))?;
             let file = design::parse_designs(&text, &origin)?;
-            let opts =
-                design::DesignOptions { level, target, replicates, power_replicates, statistics, threads, layout };
+            let opts = design::DesignOptions {
+                level,
+                target,
+                replicates,
+                power_replicates,
+                statistics,
+                threads,
+                layout,
+                engine,
+            };
             let output = Output::begin(&out, "design", force.force)?;
             let total = replicates.saturating_add(power_replicates).saturating_mul(file.designs.len() as u64);
             let bar = ui.progress("design", "datasets", total);
@@ -686,6 +736,9 @@ fn run(cli: Cli) -> Result<()> {
             design::write(&result, output.staging())?;
             output.commit()?;
             out!("{}", design::render(&result))?;
+            for (d, null, alternative) in &result.engines {
+                out!("engine for {d}: null {}; alternative {}\n", null.summary(), alternative.summary())?;
+            }
             out!("wrote results to {}\n", out.display())?;
             Ok(())
         }

@@ -14,8 +14,10 @@
 //! the lineage above a root has no defined length, so fixed differences between trees are
 //! not counted.
 
-use crate::genealogy::Genealogy;
+use crate::genealogy::{Genealogy, LocalTree};
 use crate::stats::Haplotypes;
+use petgraph::Direction;
+use petgraph::graph::NodeIndex;
 use rand::Rng;
 use rand::seq::SliceRandom;
 use rand_distr::{Distribution, Poisson};
@@ -141,84 +143,9 @@ pub fn place_with<R: Rng + ?Sized>(
     demes: Vec<u32>,
     rng: &mut R,
 ) -> Result<Mutations, Error> {
-    let graph = g.graph();
-    let n = g.n_samples();
-    let words = n.div_ceil(64);
-    // Draw the number of mutations of every edge first, so carriers are only computed for
-    // edges that need them.
-    let mut hits: Vec<(usize, u64)> = Vec::new();
-    let mut total = 0u64;
-    let child_of = |e| graph.edge_endpoints(e).expect("edge exists").1.index();
-    match count {
-        Count::Poisson => {
-            for e in graph.edge_indices() {
-                let w = graph[e];
-                let mean = model.edge_mean(w.length, w.jumps);
-                if mean > 0.0 {
-                    let k = Poisson::new(mean).map_or(0.0, |p| p.sample(rng)) as u64;
-                    if k > 0 {
-                        hits.push((child_of(e), k));
-                        total += k;
-                    }
-                }
-            }
-        }
-        Count::Fixed(k) if k > 0 => {
-            memory_check(k, n)?;
-            let edges: Vec<_> = graph.edge_indices().collect();
-            let weights: Vec<f64> = edges.iter().map(|&e| model.edge_mean(graph[e].length, graph[e].jumps)).collect();
-            let pick = rand_distr::weighted::WeightedAliasIndex::new(weights)
-                .map_err(|_| Error::NoBranchLength { mutations: k })?;
-            let mut per_edge = vec![0u64; edges.len()];
-            for _ in 0..k {
-                per_edge[pick.sample(rng)] += 1;
-            }
-            for (e, c) in edges.iter().zip(per_edge) {
-                if c > 0 {
-                    hits.push((child_of(*e), c));
-                }
-            }
-            total = k;
-        }
-        Count::Fixed(_) => {}
-    }
-    if total > model.sites {
-        return Err(Error::TooManyMutations { mutations: total, sites: model.sites });
-    }
-    let mut haplotypes = Haplotypes::new(demes);
-    if total == 0 {
-        return Ok(Mutations { positions: Vec::new(), haplotypes });
-    }
-    memory_check(total, n)?;
-    // Sample bitsets below each node, children before parents.
-    let mut below = vec![0u64; graph.node_count() * words];
-    for v in g.postorder() {
-        let i = v.index();
-        if let Some(s) = graph[v].sample {
-            below[i * words + s as usize / 64] |= 1 << (s % 64);
-        }
-        for (c, _) in g.children(v) {
-            for w in 0..words {
-                below[i * words + w] |= below[c.index() * words + w];
-            }
-        }
-    }
-    let mut positions: Vec<u64> =
-        rand::seq::index::sample(rng, model.sites as usize, total as usize).into_iter().map(|p| p as u64 + 1).collect();
-    // Positions are assigned to mutations at random, then the sites are listed in position order.
-    positions.shuffle(rng);
-    let mut sites: Vec<(u64, usize)> = Vec::with_capacity(total as usize);
-    let mut next = positions.into_iter();
-    for &(child, k) in &hits {
-        for _ in 0..k {
-            sites.push((next.next().expect("one position per mutation"), child));
-        }
-    }
-    sites.sort_unstable();
-    for &(_, child) in &sites {
-        haplotypes.push_site_bits(&below[child * words..(child + 1) * words]);
-    }
-    Ok(Mutations { positions: sites.into_iter().map(|(p, _)| p).collect(), haplotypes })
+    let mut out = Mutations { positions: Vec::new(), haplotypes: Haplotypes::new(demes) };
+    Placer::default().place(g, model, count, 0, &mut out, rng)?;
+    Ok(out)
 }
 
 /// Expected number of mutations on the whole genealogy: the sum of [`MutationModel::edge_mean`]
@@ -266,7 +193,8 @@ fn memory_check(total: u64, samples: usize) -> Result<(), Error> {
     Vec::<u8>::new().try_reserve_exact(bytes).map_err(|_| refused())
 }
 
-/// Places mutations along an ancestral recombination graph: each local tree receives the
+/// Places mutations along a recombining sequence (the local trees of an ancestral
+/// recombination graph, tiling it from left to right): each local tree receives the
 /// mutations of its own interval of sites, as [`place`] with `sites = right - left`, drawn
 /// tree by tree from left to right; positions are shifted by `left`, so they stay distinct,
 /// increasing and in 1..=L over the whole sequence. The haplotype matrix joins the trees'.
@@ -274,27 +202,155 @@ fn memory_check(total: u64, samples: usize) -> Result<(), Error> {
 /// Infinite sites holds per interval: more mutations than sites on one local tree is
 /// [`Error::TooManyOnLocalTree`].
 pub fn place_along<R: Rng + ?Sized>(
-    arg: &crate::arg::Arg,
+    trees: &[LocalTree],
     model: &MutationModel,
     demes: Vec<u32>,
     rng: &mut R,
 ) -> Result<Mutations, Error> {
-    let mut positions = Vec::new();
-    let mut haplotypes = Haplotypes::new(demes.clone());
-    for t in arg.trees() {
+    let mut out = Mutations { positions: Vec::new(), haplotypes: Haplotypes::new(demes) };
+    let mut placer = Placer::default();
+    for t in trees {
         let local = MutationModel { sites: t.sites(), ..*model };
-        let m = place(t.genealogy(), &local, demes.clone(), rng).map_err(|e| match e {
+        placer.place(t.genealogy(), &local, Count::Poisson, t.left(), &mut out, rng).map_err(|e| match e {
             Error::TooManyMutations { mutations, .. } => {
                 Error::TooManyOnLocalTree { mutations, left: t.left(), right: t.right() }
             }
             e => e,
         })?;
-        positions.extend(m.positions.iter().map(|p| p + t.left()));
-        for site in 0..m.haplotypes.sites() {
-            haplotypes.push_site_bits(m.haplotypes.site_bits(site));
+    }
+    Ok(out)
+}
+
+/// Buffers of mutation placement, reused from tree to tree: memory O(n) per tree besides the
+/// output, time linear in the tree's size plus the carriers of its mutations.
+#[derive(Debug, Default)]
+struct Placer {
+    /// (child node, mutations) of every edge that received some, in edge order.
+    hits: Vec<(u32, u64)>,
+    /// (position, child node) of every mutation.
+    sites: Vec<(u64, u32)>,
+    /// The samples in depth-first order: those below a node are `order[span[v]]`.
+    order: Vec<u32>,
+    span: Vec<(u32, u32)>,
+    stack: Vec<(u32, bool)>,
+    column: Vec<u64>,
+}
+
+impl Placer {
+    /// Draws the mutations of one genealogy, appends their sites (positions + `offset`) to
+    /// `out`. The random draws: the count of every edge in edge order (or the fixed count's
+    /// edges), then the positions, then their order; the carriers take no draw.
+    fn place<R: Rng + ?Sized>(
+        &mut self,
+        g: &Genealogy,
+        model: &MutationModel,
+        count: Count,
+        offset: u64,
+        out: &mut Mutations,
+        rng: &mut R,
+    ) -> Result<(), Error> {
+        let graph = g.graph();
+        self.hits.clear();
+        let mut total = 0u64;
+        let child_of = |e| graph.edge_endpoints(e).expect("edge exists").1.index() as u32;
+        match count {
+            Count::Poisson => {
+                for e in graph.edge_indices() {
+                    let w = graph[e];
+                    let mean = model.edge_mean(w.length, w.jumps);
+                    if mean > 0.0 {
+                        let k = Poisson::new(mean).map_or(0.0, |p| p.sample(rng)) as u64;
+                        if k > 0 {
+                            self.hits.push((child_of(e), k));
+                            total += k;
+                        }
+                    }
+                }
+            }
+            Count::Fixed(k) if k > 0 => {
+                memory_check(k, out.haplotypes.samples())?;
+                let edges: Vec<_> = graph.edge_indices().collect();
+                let weights: Vec<f64> =
+                    edges.iter().map(|&e| model.edge_mean(graph[e].length, graph[e].jumps)).collect();
+                let pick = rand_distr::weighted::WeightedAliasIndex::new(weights)
+                    .map_err(|_| Error::NoBranchLength { mutations: k })?;
+                let mut per_edge = vec![0u64; edges.len()];
+                for _ in 0..k {
+                    per_edge[pick.sample(rng)] += 1;
+                }
+                for (e, c) in edges.iter().zip(per_edge) {
+                    if c > 0 {
+                        self.hits.push((child_of(*e), c));
+                    }
+                }
+                total = k;
+            }
+            Count::Fixed(_) => {}
+        }
+        if total > model.sites {
+            return Err(Error::TooManyMutations { mutations: total, sites: model.sites });
+        }
+        if total == 0 {
+            return Ok(());
+        }
+        memory_check(total, out.haplotypes.samples())?;
+        let mut positions: Vec<u64> = rand::seq::index::sample(rng, model.sites as usize, total as usize)
+            .into_iter()
+            .map(|p| p as u64 + 1)
+            .collect();
+        // Positions are assigned to mutations at random, then the sites are listed in position order.
+        positions.shuffle(rng);
+        self.sites.clear();
+        let mut next = positions.into_iter();
+        for &(child, k) in &self.hits {
+            for _ in 0..k {
+                self.sites.push((next.next().expect("one position per mutation"), child));
+            }
+        }
+        self.sites.sort_unstable();
+        self.layout(g);
+        let words = out.haplotypes.samples().div_ceil(64);
+        for &(position, child) in &self.sites {
+            self.column.clear();
+            self.column.resize(words, 0);
+            let (lo, hi) = self.span[child as usize];
+            for &s in &self.order[lo as usize..hi as usize] {
+                self.column[s as usize / 64] |= 1 << (s % 64);
+            }
+            out.haplotypes.push_site_bits(&self.column);
+            out.positions.push(position + offset);
+        }
+        Ok(())
+    }
+
+    /// Lays the samples out in depth-first order, so that the samples below every node (the
+    /// node itself included when it is sampled) are one range of `order`.
+    fn layout(&mut self, g: &Genealogy) {
+        let graph = g.graph();
+        self.order.clear();
+        self.span.clear();
+        self.span.resize(graph.node_count(), (0, 0));
+        for top in graph.node_indices() {
+            if graph.neighbors_directed(top, Direction::Incoming).next().is_some() {
+                continue;
+            }
+            self.stack.push((top.index() as u32, false));
+            while let Some((v, done)) = self.stack.pop() {
+                let node = NodeIndex::new(v as usize);
+                if done {
+                    self.span[v as usize].1 = self.order.len() as u32;
+                    continue;
+                }
+                self.span[v as usize].0 = self.order.len() as u32;
+                if let Some(s) = graph[node].sample {
+                    self.order.push(s);
+                }
+                self.stack.push((v, true));
+                self.stack
+                    .extend(graph.neighbors_directed(node, Direction::Outgoing).map(|c| (c.index() as u32, false)));
+            }
         }
     }
-    Ok(Mutations { positions, haplotypes })
 }
 
 #[cfg(test)]

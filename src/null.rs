@@ -22,6 +22,7 @@
 //! ([`LocusTest`]).
 
 use crate::batch::{self, BatchConfig, Keep};
+use crate::engine::{Engine, EngineChoice, EngineKind, Scratch};
 use crate::mutation::Count;
 use crate::report::{StreamFile, replicate_columns, replicate_values, write_atomic};
 use crate::scenario::Scenario;
@@ -55,6 +56,31 @@ pub struct Manifest {
     pub mutations: String,
     /// Column names of every row.
     pub columns: Vec<String>,
+    /// The engine that made the rows (runs older than this field were exact).
+    #[serde(default = "exact_engine")]
+    pub engine: EngineKind,
+    /// Why that engine, in words.
+    #[serde(default)]
+    pub engine_reason: String,
+}
+
+fn exact_engine() -> EngineKind {
+    EngineKind::Exact
+}
+
+/// A directory holds a null run made with another engine: resuming it would mix two nulls.
+#[derive(Debug, thiserror::Error)]
+#[error(
+    "{} holds a null run made with the {was} engine, and this run would use the {now} engine: \
+     rerun with --engine {was}, or use another --out", dir.display()
+)]
+pub struct EngineMismatch {
+    /// The directory.
+    pub dir: PathBuf,
+    /// The engine of the rows already there.
+    pub was: EngineKind,
+    /// The engine this run resolved to.
+    pub now: EngineKind,
 }
 
 impl Manifest {
@@ -75,6 +101,7 @@ impl Manifest {
         check(self.chunk == other.chunk, "chunk");
         check(self.mutations == other.mutations, "mutations");
         check(self.columns == other.columns, "columns");
+        check(self.engine == other.engine, "engine");
         d
     }
 
@@ -208,6 +235,8 @@ pub struct NullConfig {
     pub count: Count,
     /// Stop after this many new chunks (for time-limited slots); the rest is done by a rerun.
     pub max_new_chunks: Option<u64>,
+    /// The engine asked for (`--engine`); the one that runs is part of the settings.
+    pub engine: EngineChoice,
 }
 
 impl NullConfig {
@@ -258,6 +287,8 @@ pub struct NullReport {
     pub shard_replicates: u64,
     /// Chunks found damaged (or not in the chunk manifest) and redone, with the reason.
     pub redone: Vec<String>,
+    /// The engine that ran and why.
+    pub engine: crate::engine::EngineDecision,
 }
 
 /// Parses `I/K`.
@@ -369,6 +400,7 @@ pub fn run(
     if scenario.recombination().is_some() && cfg.count != Count::Poisson {
         return Err(NullError::FixedWithRecombination.into());
     }
+    let engine = Engine::new(scenario, cfg.engine)?;
     let n = scenario.samples().len();
     let mut columns = replicate_columns(scenario);
     columns.extend((1..n).map(|i| format!("xi_{i}")));
@@ -386,12 +418,18 @@ pub fn run(
             Count::Fixed(s) => format!("fixed {s}"),
         },
         columns: columns.clone(),
+        engine: engine.kind(),
+        engine_reason: engine.decision().reason.clone(),
     };
     fs::create_dir_all(dir).with_context(|| format!("cannot create directory {}", dir.display()))?;
     let mpath = dir.join("null.json");
     if mpath.exists() {
         let old = manifest_of(dir)?;
-        if old != manifest {
+        if old.engine != manifest.engine {
+            return Err(EngineMismatch { dir: dir.to_path_buf(), was: old.engine, now: manifest.engine }.into());
+        }
+        // The reason is information only: `auto` and `exact` may both run the exact engine.
+        if (Manifest { engine_reason: manifest.engine_reason.clone(), ..old.clone() }) != manifest {
             let differs = old.differences(&manifest).join(", ");
             return Err(SettingsMismatch { dir: dir.to_path_buf(), differs }.into());
         }
@@ -417,6 +455,7 @@ pub fn run(
         total_chunks,
         shard_replicates: cfg.shard_replicates(),
         redone: Vec::new(),
+        engine: engine.decision().clone(),
     };
     let done = std::sync::atomic::AtomicU64::new(0);
     let ledger_path = dir.join(CHUNK_MANIFEST);
@@ -469,8 +508,8 @@ pub fn run(
                 scenario,
                 &reps,
                 batch_config,
-                |sim, sc, rep, _| {
-                    let r = replicate_with(sim, sc, &key, rep, cfg.count, &labels);
+                |scratch, _, rep, _| {
+                    let r = replicate_with(&engine, scratch, &key, rep, cfg.count, &labels);
                     progress(done.fetch_add(1, std::sync::atomic::Ordering::Relaxed) + 1);
                     r
                 },
@@ -513,24 +552,25 @@ pub fn run(
 
 /// One replicate with the chosen mutation count (Poisson: as `simulate`).
 fn replicate_with(
-    sim: &mut crate::engine::Simulator,
-    sc: &Scenario,
+    engine: &Engine,
+    scratch: &mut Scratch,
     key: &[u8; 32],
     rep: u64,
     count: Count,
     labels: &[String],
 ) -> Result<Vec<batch::LocusOutcome>, crate::mutation::Error> {
     match count {
-        Count::Poisson => batch::simulate_replicate(sim, sc, key, rep, Keep::default(), labels, None),
+        Count::Poisson => batch::simulate_replicate(engine, scratch, key, rep, Keep::default(), labels),
         Count::Fixed(s) => {
             // S mutations over the whole replicate: the genealogies of every locus first, then
             // S split over the loci in proportion to their expected numbers of mutations
             // (multinomial, drawn from locus 0's stream), then each locus's share placed.
+            let sc = engine.scenario();
             let demes: Vec<u32> = sc.samples().iter().map(|x| x.deme as u32).collect();
             let mut loci = Vec::new();
             for locus in 0..sc.loci() {
                 let mut rng = batch::locus_rng(key, rep, locus);
-                let g = sim.simulate(sc, &mut rng);
+                let g = engine.simulate_tree(scratch, &mut rng);
                 loci.push((g, rng));
             }
             let shares = if loci.len() == 1 {
@@ -653,6 +693,7 @@ pub fn load(dir: &Path) -> Result<NullTable> {
         chunk: manifest.chunk,
         count: Count::Poisson,
         max_new_chunks: None,
+        engine: EngineChoice::Auto,
     };
     let chunks_err = |message: String| NullError::Chunks { dir: dir.to_path_buf(), message };
     let mut rows = Vec::new();
@@ -753,14 +794,15 @@ pub fn merge(dirs: &[PathBuf], out: &Path) -> Result<u64> {
             && m.seed == first.seed
             && m.replicates == first.replicates
             && m.mutations == first.mutations
-            && m.columns == first.columns;
+            && m.columns == first.columns
+            && m.engine == first.engine;
         if !same {
             let differs: Vec<&str> =
                 m.differences(&first).into_iter().filter(|d| !["shard", "chunk"].contains(d)).collect();
             return Err(NullError::Chunks {
                 dir: d.clone(),
                 message: format!(
-                    "made with other settings than {} ({} differ): shards must share scenario, seed, replicates and mutations",
+                    "made with other settings than {} ({} differ): shards must share scenario, seed, replicates, mutations and engine",
                     dirs[0].display(),
                     differs.join(", ")
                 ),

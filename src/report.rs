@@ -226,7 +226,7 @@ pub struct SimulationSummary {
     /// Simulated means against the predictions.
     pub comparison: Vec<Comparison>,
     /// The engine that ran and why.
-    pub engine: crate::approx::EngineDecision,
+    pub engine: crate::engine::EngineDecision,
 }
 
 /// Accumulates the columns of `replicates.tsv` for the summary.
@@ -290,7 +290,7 @@ pub fn render_summary(summary: &SimulationSummary) -> String {
 }
 
 /// Files always written by [`simulate_to_dir`]; `sfs.tsv` joins them with a mutation model,
-/// [`LD_FILE`] with recombination and a mutation model, `loci.tsv` and `vcf/` on request.
+/// [`LD_FILE`] (`--ld`), `loci.tsv` and `vcf/` on request.
 pub const SIMULATE_FILES: [&str; 3] = ["replicates.tsv", "trees.nwk", "summary.json"];
 
 /// Optional outputs of `simulate`.
@@ -303,7 +303,10 @@ pub struct SimulateOptions {
     /// Write `loci.tsv`, one row per locus.
     pub loci_table: bool,
     /// Exact, approximate or automatic choice of engine.
-    pub engine: crate::approx::EngineChoice,
+    pub engine: crate::engine::EngineChoice,
+    /// Write [`LD_FILE`]: r² by distance within loci (all pairs of segregating sites: the
+    /// cost grows with the square of their number).
+    pub ld: bool,
 }
 
 /// The columns of `replicates.tsv` for a scenario.
@@ -312,9 +315,12 @@ pub struct SimulateOptions {
 /// columns of [`crate::stats::stat_columns`]; with several loci also the mean and variance
 /// across loci of π, S, Tajima's D, θ_W and Fay & Wu's H ([`crate::stats::LOCUS_SPREAD`]). With several loci `tmrca` and `total_length` are means
 /// over loci (`tmrca` empty if any locus is a forest), `roots` the largest number of roots
-/// and `jumps` the sum. With recombination `breakpoints` comes last (summed over loci), and
-/// `tmrca`, `total_length` of a locus are means over its local trees weighted by their
-/// number of sites ([`crate::batch::LocusOutcome`]).
+/// and `jumps` the sum. With recombination `breakpoints` and `crossovers` come last (summed
+/// over loci): the positions where the genealogy (topology or node times) changes
+/// ([`crate::engine::arg::Arg::breakpoints`]), and every crossover on the genealogy of the
+/// sample, visible or not ([`crate::engine::arg::Arg::tree_crossovers`]); `tmrca`,
+/// `total_length` of a locus are means over its local trees weighted by their number of
+/// sites ([`crate::batch::LocusOutcome`]).
 pub fn replicate_columns(scenario: &crate::scenario::Scenario) -> Vec<String> {
     let mut cols: Vec<String> = BASE_COLUMNS.iter().map(|s| s.to_string()).collect();
     if scenario.mutation().is_some() {
@@ -326,6 +332,7 @@ pub fn replicate_columns(scenario: &crate::scenario::Scenario) -> Vec<String> {
     }
     if scenario.recombination().is_some() {
         cols.push("breakpoints".to_string());
+        cols.push("crossovers".to_string());
     }
     cols
 }
@@ -356,6 +363,7 @@ pub fn replicate_values(replicate: u64, loci: &[crate::batch::LocusOutcome], n_d
     }
     if loci.iter().any(|l| l.breakpoints.is_some()) {
         v.push(Some(loci.iter().filter_map(|l| l.breakpoints).sum::<u64>() as f64));
+        v.push(Some(loci.iter().filter_map(|l| l.tree_crossovers).sum::<u64>() as f64));
     }
     v
 }
@@ -415,10 +423,11 @@ pub fn simulate_to_dir(
     progress: &(dyn Fn() + Sync),
 ) -> anyhow::Result<SimulationSummary> {
     use anyhow::Context;
-    let engine = crate::approx::resolve(options.engine, scenario)?;
-    let approx = match engine.kind {
-        crate::approx::EngineKind::Approx => Some(crate::approx::ApproxModel::new(scenario)?),
-        crate::approx::EngineKind::Exact => None,
+    let engine = crate::engine::Engine::new(scenario, options.engine)?;
+    let ld_edges = match (options.ld, scenario.mutation()) {
+        (true, Some(m)) => Some(crate::batch::ld_bins(m.sites())),
+        (true, None) => anyhow::bail!("--ld needs a mutation model: add a `mutation:` section to the scenario"),
+        (false, _) => None,
     };
     fs::create_dir_all(dir).with_context(|| format!("creating output directory {}", dir.display()))?;
     let labels: Vec<String> = scenario.samples().iter().map(|s| s.label.clone()).collect();
@@ -453,10 +462,6 @@ pub fn simulate_to_dir(
         crate::vcf_export::columns(scenario.samples(), options.diploid)?;
         fs::create_dir_all(&vcf_dir).with_context(|| format!("creating {}", vcf_dir.display()))?;
     }
-    let ld_edges = match (scenario.recombination(), mutation) {
-        (Some(r), true) => Some(crate::batch::ld_bins(r.sites())),
-        _ => None,
-    };
     let keep = crate::batch::Keep { trees: true, mutations: options.vcf, ld: ld_edges.is_some() };
     let mut ld_acc = LdAccumulator::new(ld_edges.as_deref().unwrap_or(&[]));
     let key = crate::batch::master_key(scenario.seed());
@@ -467,8 +472,8 @@ pub fn simulate_to_dir(
         scenario,
         &reps,
         config,
-        |sim, sc, rep, _| {
-            let r = crate::batch::simulate_replicate(sim, sc, &key, rep, keep, &labels, approx.as_ref());
+        |scratch, _, rep, _| {
+            let r = crate::batch::simulate_replicate(&engine, scratch, &key, rep, keep, &labels);
             progress();
             r
         },
@@ -533,7 +538,7 @@ pub fn simulate_to_dir(
         comparison: compare(&acc.summaries(), &sfs_means, &prediction, n == 2 && loci == 1),
         prediction: prediction.to_json(),
         notes: prediction.notes.clone(),
-        engine,
+        engine: engine.decision().clone(),
     };
     table.finish()?;
     trees.finish()?;
@@ -553,8 +558,8 @@ pub fn simulate_to_dir(
     Ok(summary)
 }
 
-/// Decay of linkage disequilibrium pooled over replicates, written by [`simulate_to_dir`] when
-/// the scenario has recombination and a mutation model.
+/// Decay of linkage disequilibrium pooled over replicates, written by [`simulate_to_dir`] on
+/// request (`--ld`; needs a mutation model).
 pub const LD_FILE: &str = "ld.tsv";
 
 /// r² by distance pooled over loci and replicates: per bin, the mean over all pairs of
@@ -573,8 +578,8 @@ impl LdAccumulator {
         LdAccumulator { edges: edges.to_vec(), sum: vec![0.0; k], pairs: vec![0; k] }
     }
 
-    /// Adds one locus' bins (from [`crate::arg::ld_decay`] over the same edges).
-    pub fn add(&mut self, bins: &[crate::arg::LdBin]) {
+    /// Adds one locus' bins (from [`crate::stats::ld::ld_decay`] over the same edges).
+    pub fn add(&mut self, bins: &[crate::stats::ld::LdBin]) {
         for (k, b) in bins.iter().enumerate() {
             if b.pairs > 0 {
                 self.sum[k] += b.mean_r2 * b.pairs as f64;

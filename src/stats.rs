@@ -19,6 +19,10 @@
 //! 2 samples, and F_ST for a pair involving such a deme or with no between-deme difference.
 //! Sums are accumulated in f64 from integer counts, so the results do not depend on the
 //! order of the sites beyond rounding.
+//!
+//! [`ld`]: linkage disequilibrium (r²) between pairs of sites, binned by distance.
+
+pub mod ld;
 
 use serde::Serialize;
 
@@ -441,22 +445,35 @@ impl Haplotypes {
     /// Number of distinct haplotypes among the n samples (monomorphic sites included, which
     /// cannot change the count).
     pub fn distinct_haplotypes(&self) -> usize {
-        // Transpose into one row bitset per sample, then sort and deduplicate.
-        let row_words = self.sites.div_ceil(64);
-        let mut rows = vec![vec![0u64; row_words]; self.n];
-        for site in 0..self.sites {
-            for (w, &word) in self.column(site).iter().enumerate() {
-                let mut word = word;
-                while word != 0 {
-                    let s = w * 64 + word.trailing_zeros() as usize;
-                    rows[s][site / 64] |= 1 << (site % 64);
-                    word &= word - 1;
-                }
-            }
+        // Refine a partition of the samples site by site: two samples stay in one class while
+        // their alleles agree at every site so far. O(n) per site, no sort; stops early once
+        // every sample is alone.
+        let n = self.n;
+        if n == 0 {
+            return 0;
         }
-        rows.sort_unstable();
-        rows.dedup();
-        rows.len()
+        let mut class = vec![0u32; n];
+        let mut classes = 1usize;
+        let mut table: Vec<u32> = Vec::new();
+        for site in 0..self.sites {
+            if classes == n {
+                break;
+            }
+            let col = self.column(site);
+            table.clear();
+            table.resize(2 * classes, u32::MAX);
+            let mut next = 0u32;
+            for (s, c) in class.iter_mut().enumerate() {
+                let slot = 2 * *c as usize + (col[s / 64] >> (s % 64) & 1) as usize;
+                if table[slot] == u32::MAX {
+                    table[slot] = next;
+                    next += 1;
+                }
+                *c = table[slot];
+            }
+            classes = next as usize;
+        }
+        classes
     }
 
     /// All summary statistics; see [`SampleStats::from_haplotypes`].
@@ -746,6 +763,37 @@ mod tests {
         assert!(close(st.theta_pi.unwrap(), want, 1e-12));
         // Haplotypes: {0}: 10, 1..63: 00, 64..128: 01, 129: 11.
         assert_eq!(st.distinct_haplotypes, 4);
+    }
+
+    #[test]
+    fn distinct_haplotypes_equal_distinct_rows() {
+        // Reference: the rows themselves, sorted and deduplicated. Random 0/1 matrices with
+        // few distinct rows (rows copied from a small pool, then mutated), across word
+        // boundaries in both samples (n up to 150) and sites (up to 140).
+        use rand::{RngExt, SeedableRng};
+        let mut rng = rand::rngs::ChaCha8Rng::seed_from_u64(9);
+        for _ in 0..200 {
+            let n = rng.random_range(1..150usize);
+            let sites = rng.random_range(0..140usize);
+            let pool: Vec<Vec<u8>> =
+                (0..rng.random_range(1..8)).map(|_| (0..sites).map(|_| rng.random_range(0..2u8)).collect()).collect();
+            let rows: Vec<Vec<u8>> = (0..n)
+                .map(|_| {
+                    let mut r = pool[rng.random_range(0..pool.len())].clone();
+                    if sites > 0 && rng.random_bool(0.2) {
+                        let j = rng.random_range(0..sites);
+                        r[j] ^= 1;
+                    }
+                    r
+                })
+                .collect();
+            let h = Haplotypes::from_rows(&rows, vec![0; n]).unwrap();
+            let mut reference = rows.clone();
+            reference.sort();
+            reference.dedup();
+            assert_eq!(h.distinct_haplotypes(), reference.len(), "n = {n}, sites = {sites}");
+        }
+        assert_eq!(Haplotypes::new(Vec::new()).distinct_haplotypes(), 0);
     }
 
     #[test]

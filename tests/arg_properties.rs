@@ -3,8 +3,8 @@
 //! sites were separated, and a gap separated once changes the tree by one prune-and-regraft.
 
 use proptest::prelude::*;
-use seedline::arg::{Arg, ArgConfig, ArgSimulator};
 use seedline::batch::{master_key, replicate_rng};
+use seedline::engine::arg::{Arg, ArgConfig, ArgSimulator};
 use seedline::genealogy::Genealogy;
 use seedline::scenario::Scenario;
 use std::collections::BTreeSet;

@@ -142,3 +142,98 @@ fn predict_prints_json_with_the_fixed_keys() {
     assert_eq!(v["pair_time_mean"], 1000.0);
     assert_eq!(v["sfs_expected"].as_array().unwrap().len(), 19);
 }
+
+#[test]
+fn linkage_disequilibrium_only_on_request() {
+    let d = tempdir("ld");
+    let scenario = write(
+        &d,
+        "s.yaml",
+        "demes: [{name: a, size: 300}]\nsamples: [{deme: a, count: 6}]\n\
+         mutation: {rate: 2.0e-6, sites: 5000}\nrecombination: {rate: 2.0e-6}\n",
+    );
+    let run = |name: &str, extra: &[&str]| {
+        let out = d.join(name);
+        let mut args = vec!["simulate", scenario.as_str(), "--replicates", "5", "--out", out.to_str().unwrap()];
+        args.extend_from_slice(extra);
+        (seedline(&args), out)
+    };
+    let (o, plain) = run("plain", &[]);
+    assert!(o.status.success(), "{}", String::from_utf8_lossy(&o.stderr));
+    assert!(!plain.join("ld.tsv").exists(), "ld.tsv written without --ld");
+    let (o, with) = run("with", &["--ld"]);
+    assert!(o.status.success(), "{}", String::from_utf8_lossy(&o.stderr));
+    let ld = std::fs::read_to_string(with.join("ld.tsv")).unwrap();
+    assert!(ld.lines().count() > 2, "{ld}");
+    // The other outputs do not depend on --ld.
+    for f in ["replicates.tsv", "trees.nwk", "sfs.tsv"] {
+        assert_eq!(std::fs::read(plain.join(f)).unwrap(), std::fs::read(with.join(f)).unwrap(), "{f} differs");
+    }
+    // --ld without a mutation model is bad input.
+    let bare = write(&d, "bare.yaml", "demes: [{name: a, size: 300}]\nsamples: [{deme: a, count: 6}]\n");
+    let o = seedline(&["simulate", bare.as_str(), "--ld", "--out", d.join("bare").to_str().unwrap()]);
+    assert_eq!(o.status.code(), Some(2), "{}", String::from_utf8_lossy(&o.stderr));
+    assert!(String::from_utf8_lossy(&o.stderr).contains("--ld needs a mutation model"));
+}
+
+#[test]
+fn every_command_records_its_engine() {
+    let d = tempdir("engines");
+    let large = write(
+        &d,
+        "large.yaml",
+        "replicates: 20\ndemes: [{name: a, size: 50000, dormancy: {law: geometric, mean: 3}}]\n\
+         samples: [{deme: a, count: 8}]\nmutation: {rate: 1.0e-9, sites: 10000}\n",
+    );
+    let json = |p: std::path::PathBuf| -> serde_json::Value {
+        serde_json::from_str(&std::fs::read_to_string(p).unwrap()).unwrap()
+    };
+    // simulate: the decision with what was asked and why.
+    let out = d.join("sim");
+    let o = seedline(&["simulate", large.as_str(), "--out", out.to_str().unwrap()]);
+    assert!(o.status.success(), "{}", String::from_utf8_lossy(&o.stderr));
+    let s = json(out.join("summary.json"));
+    assert_eq!((s["engine"]["kind"].as_str(), s["engine"]["requested"].as_str()), (Some("approx"), Some("auto")));
+    assert!(s["engine"]["reason"].as_str().unwrap().contains("Kingman"));
+    // null: in the manifest, and printed.
+    let out = d.join("null");
+    let o =
+        seedline(&["null", large.as_str(), "--replicates", "10", "--engine", "exact", "--out", out.to_str().unwrap()]);
+    assert!(o.status.success(), "{}", String::from_utf8_lossy(&o.stderr));
+    assert!(String::from_utf8_lossy(&o.stdout).contains("engine: exact engine (requested)"));
+    assert_eq!(json(out.join("null.json"))["engine"], "exact");
+    // An unknown engine name is bad input.
+    let o = seedline(&["simulate", large.as_str(), "--engine", "quick", "--out", d.join("x").to_str().unwrap()]);
+    assert_eq!(o.status.code(), Some(2));
+    // compare: a tally per hypothesis (prior on N: draws below 200 individuals run exact).
+    let h = write(
+        &d,
+        "h.yaml",
+        "demes: [{name: a, size: {prior: uniform, low: 50, high: 5000}}]\nsamples: [{deme: a, count: 8}]\n\
+         mutation: {rate: 1.0e-7, sites: 10000}\n",
+    );
+    let obs = write(&d, "obs.json", r#"{"statistics": {"segregating_sites": 5, "pi": 2.0}}"#);
+    let out = d.join("cmp");
+    let o = seedline(&[
+        "compare",
+        obs.as_str(),
+        "--hypotheses",
+        h.as_str(),
+        "--simulations",
+        "100",
+        "--tolerance",
+        "0.2",
+        "--statistics",
+        "segregating_sites,pi",
+        "--out",
+        out.to_str().unwrap(),
+    ]);
+    assert!(o.status.success(), "{}", String::from_utf8_lossy(&o.stderr));
+    let c = json(out.join("compare.json"));
+    let runs = &c["hypotheses"][0]["engine"]["runs"];
+    let (exact, approx) = (runs["exact"].as_u64().unwrap(), runs["approx"].as_u64().unwrap());
+    assert_eq!(exact + approx, 100);
+    // N uniform on [50, 5000]: P(N < 200) = 150/4950, so some of each (by hand: ~3 exact).
+    assert!(exact >= 1 && approx >= 90, "exact {exact}, approx {approx}");
+    assert!(String::from_utf8_lossy(&o.stdout).contains("engine for h: --engine auto:"));
+}

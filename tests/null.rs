@@ -1,6 +1,7 @@
 //! Null distributions: shards, resume, interruption, and calibration of the test.
 
 use seedline::batch::BatchConfig;
+use seedline::engine::EngineChoice;
 use seedline::mutation::Count;
 use seedline::null::{self, NullConfig};
 use seedline::scenario::Scenario;
@@ -18,7 +19,7 @@ fn tempdir(name: &str) -> PathBuf {
 }
 
 fn cfg(replicates: u64, shard: (u64, u64), max: Option<u64>) -> NullConfig {
-    NullConfig { replicates, shard, chunk: 25, count: Count::Poisson, max_new_chunks: max }
+    NullConfig { replicates, shard, chunk: 25, count: Count::Poisson, max_new_chunks: max, engine: EngineChoice::Exact }
 }
 
 #[test]
@@ -48,10 +49,66 @@ fn shards_merged_equal_the_unsharded_run_and_resume_equals_uninterrupted() {
 }
 
 #[test]
+fn the_engine_is_part_of_a_null_run_settings() {
+    // N = 2e4 with geometric dormancy of mean 2: auto runs the approximate engine.
+    let large_yaml = YAML.replace("size: 100,", "size: 20000,").replace("1.0e-6", "1.0e-8");
+    let large = Scenario::from_yaml_str(&large_yaml, "t").unwrap();
+    let d = tempdir("engine");
+    let quiet = |_| {};
+    let with = |engine| NullConfig { engine, ..cfg(50, (0, 1), Some(1)) };
+    let r = null::run(&large, with(EngineChoice::Exact), BatchConfig::default(), &d.join("x"), &quiet).unwrap();
+    assert_eq!(r.engine.kind, seedline::engine::EngineKind::Exact);
+    // Resuming with auto (which resolves to approx here) is refused and says why.
+    let e = null::run(&large, with(EngineChoice::Auto), BatchConfig::default(), &d.join("x"), &quiet).unwrap_err();
+    let m = e.downcast_ref::<null::EngineMismatch>().expect("an engine mismatch");
+    assert_eq!((m.was, m.now), (seedline::engine::EngineKind::Exact, seedline::engine::EngineKind::Approx));
+    assert!(e.to_string().contains("--engine exact"), "{e}");
+    // The same engine reached another way (auto resolving to exact at N = 100) resumes.
+    let small = Scenario::from_yaml_str(YAML, "t").unwrap();
+    null::run(&small, with(EngineChoice::Exact), BatchConfig::default(), &d.join("y"), &quiet).unwrap();
+    let r = null::run(&small, with(EngineChoice::Auto), BatchConfig::default(), &d.join("y"), &quiet).unwrap();
+    assert_eq!((r.resumed_chunks, r.engine.kind), (1, seedline::engine::EngineKind::Exact));
+    // The manifest names the engine of the rows.
+    null::run(&large, with(EngineChoice::Auto), BatchConfig::default(), &d.join("z"), &quiet).unwrap();
+    let json: serde_json::Value =
+        serde_json::from_str(&std::fs::read_to_string(d.join("z/null.json")).unwrap()).unwrap();
+    assert_eq!(json["engine"], "approx");
+    // Through the binary: the refusal exits 2.
+    std::fs::write(d.join("large.yaml"), &large_yaml).unwrap();
+    let run = |engine: &str| {
+        Command::new(env!("CARGO_BIN_EXE_seedline"))
+            .args(["null", "large.yaml", "--replicates", "20", "--chunk", "10", "--out", "cli", "--engine", engine])
+            .current_dir(&d)
+            .output()
+            .unwrap()
+    };
+    let o = run("approx");
+    assert!(o.status.success(), "{}", String::from_utf8_lossy(&o.stderr));
+    assert!(String::from_utf8_lossy(&o.stdout).contains("engine: approximate engine"));
+    let o = run("exact");
+    assert_eq!(o.status.code(), Some(2), "{}", String::from_utf8_lossy(&o.stderr));
+    assert!(String::from_utf8_lossy(&o.stderr).contains("approx engine"), "{}", String::from_utf8_lossy(&o.stderr));
+}
+
+#[test]
 fn a_killed_run_leaves_only_complete_chunks_and_resumes() {
     let d = tempdir("kill");
     std::fs::write(d.join("s.yaml"), YAML.replace("size: 100", "size: 3000")).unwrap();
-    let args = ["null", "s.yaml", "--replicates", "400", "--chunk", "20", "--out", "run", "--threads", "1"];
+    // The exact engine: slow enough at N = 3000 to be killed half-way.
+    let args = [
+        "null",
+        "s.yaml",
+        "--replicates",
+        "400",
+        "--chunk",
+        "20",
+        "--out",
+        "run",
+        "--threads",
+        "1",
+        "--engine",
+        "exact",
+    ];
     let mut child = Command::new(env!("CARGO_BIN_EXE_seedline")).args(args).current_dir(&d).spawn().unwrap();
     // Wait for the first complete chunk, then kill the process without warning.
     let first = d.join("run/chunk_000000.tsv");
@@ -78,7 +135,7 @@ fn a_killed_run_leaves_only_complete_chunks_and_resumes() {
         .unwrap();
     assert!(o.status.success());
     let o = Command::new(env!("CARGO_BIN_EXE_seedline"))
-        .args(["null", "s.yaml", "--replicates", "400", "--chunk", "20", "--out", "clean"])
+        .args(["null", "s.yaml", "--replicates", "400", "--chunk", "20", "--out", "clean", "--engine", "exact"])
         .current_dir(&d)
         .output()
         .unwrap();

@@ -6,6 +6,7 @@
 use seedline::abc::compare::{self, Adjust};
 use seedline::abc::design::{self, DesignOptions};
 use seedline::abc::{self, Hypothesis, Simulated};
+use seedline::engine::EngineChoice;
 
 /// No dormancy, haploid Wright–Fisher, N = 100.
 const NONE: &str = "seed: 11\ndemes:\n  - name: pond\n    size: 100\nsamples:\n  - { deme: pond, count: 10 }\nmutation: { rate: 2.0e-8, sites: 1000000 }\n";
@@ -100,14 +101,18 @@ fn model_choice_recovers_the_true_hypothesis() {
     ];
     let stats = names(&abc::DEFAULT_STATISTICS);
     let seeds: Vec<u64> = (0..2).map(|i| abc::hypothesis_seed(h[i].seed, i as u64)).collect();
-    let tables: Vec<Vec<Simulated>> =
-        (0..2).map(|i| abc::simulate_hypothesis(&h[i], seeds[i], 0..500, &stats, 2, &|| {}).unwrap()).collect();
+    let tables: Vec<Vec<Simulated>> = (0..2)
+        .map(|i| abc::simulate_hypothesis(&h[i], seeds[i], 0..500, &stats, 2, EngineChoice::Exact, &|| {}).unwrap().0)
+        .collect();
     let refs: Vec<&[Simulated]> = tables.iter().map(Vec::as_slice).collect();
     let priors: Vec<&[abc::Prior]> = vec![&[], &[]];
     for adjust in [Adjust::None, Adjust::Logistic] {
         let mut confusion = [[0usize; 2]; 2];
         for truth in 0..2 {
-            let pods = abc::simulate_hypothesis(&h[truth], seeds[truth], 500..520, &stats, 2, &|| {}).unwrap();
+            let pods =
+                abc::simulate_hypothesis(&h[truth], seeds[truth], 500..520, &stats, 2, EngineChoice::Exact, &|| {})
+                    .unwrap()
+                    .0;
             for pod in &pods {
                 let obs = observed_of(pod).expect("S > 0 in every pseudo-observed dataset with these seeds");
                 let a = compare::analyse(&priors, &refs, &obs, 0.05, adjust);
@@ -178,8 +183,8 @@ fn credible_intervals_are_calibrated() {
     let h = hyp(&text, "geometric");
     let stats = names(&abc::DEFAULT_STATISTICS);
     let seed = abc::hypothesis_seed(h.seed, 0);
-    let table = abc::simulate_hypothesis(&h, seed, 0..2000, &stats, 2, &|| {}).unwrap();
-    let pods = abc::simulate_hypothesis(&h, seed, 2000..2100, &stats, 2, &|| {}).unwrap();
+    let table = abc::simulate_hypothesis(&h, seed, 0..2000, &stats, 2, EngineChoice::Exact, &|| {}).unwrap().0;
+    let pods = abc::simulate_hypothesis(&h, seed, 2000..2100, &stats, 2, EngineChoice::Exact, &|| {}).unwrap().0;
     let (covered, used, plain) = coverage(&h, &table, &pods, 0.1);
     eprintln!("coverage of 90% intervals: adjusted {covered:?}/{used}, rejection only {plain:?}/{used}");
     assert_eq!(used, 100, "every pseudo-observed dataset has S > 0 with these seeds");
@@ -202,8 +207,8 @@ fn uniform_priors_give_calibrated_intervals_inside_the_prior() {
     let h = hyp(&text, "uniform");
     let stats = names(&abc::DEFAULT_STATISTICS);
     let seed = abc::hypothesis_seed(h.seed, 0);
-    let table = abc::simulate_hypothesis(&h, seed, 0..2000, &stats, 2, &|| {}).unwrap();
-    let pods = abc::simulate_hypothesis(&h, seed, 2000..2200, &stats, 2, &|| {}).unwrap();
+    let table = abc::simulate_hypothesis(&h, seed, 0..2000, &stats, 2, EngineChoice::Exact, &|| {}).unwrap().0;
+    let pods = abc::simulate_hypothesis(&h, seed, 2000..2200, &stats, 2, EngineChoice::Exact, &|| {}).unwrap().0;
     let (covered, used, plain) = coverage(&h, &table, &pods, 0.1);
     eprintln!("coverage of 90% intervals (N, mean): adjusted {covered:?}/{used}, rejection only {plain:?}/{used}");
     assert!(used >= 195, "datasets with every statistic defined: {used}");

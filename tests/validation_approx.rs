@@ -2,8 +2,9 @@
 //! overlap (large N, short dormancy). Every expected value names its source; all seeds are
 //! fixed, so the tests are deterministic. Run with `--nocapture` to see the grid table.
 
-use seedline::approx::{self, ApproxModel, EngineKind};
 use seedline::batch::{BatchConfig, master_key, replicate_rng};
+use seedline::engine::approx::{self, ApproxModel};
+use seedline::engine::{self as engines, Engine, EngineChoice, EngineKind};
 use seedline::genealogy::Genealogy;
 use seedline::scenario::Scenario;
 use seedline::theory::{kingman, seedbank_coalescent::SeedBankCoalescent, structured};
@@ -37,7 +38,7 @@ fn exact_runs(s: &Scenario, reps: u64) -> Vec<Vec<f64>> {
         s,
         &idx,
         BatchConfig::default(),
-        |sim, sc, _, rng| stats(&sim.simulate(sc, rng)),
+        |sim, sc, _, rng| stats(&Engine::exact(sc).simulate_tree(sim, rng)),
         |_, v| {
             out.push(v);
             Ok(())
@@ -206,9 +207,9 @@ fn auto_rule() {
     );
     // Forced approx outside the domain is an error; exact always resolves.
     let s = scenario(&one("1000", "{law: pareto, alpha: 0.7}"));
-    assert!(approx::resolve(approx::EngineChoice::Approx, &s).is_err());
+    assert!(engines::resolve(EngineChoice::Approx, &s).is_err());
     assert!(approx::simulate_approx(&s, &mut replicate_rng(&master_key(1), 0)).is_err());
-    assert_eq!(approx::resolve(approx::EngineChoice::Exact, &s).unwrap().kind, EngineKind::Exact);
+    assert_eq!(engines::resolve(EngineChoice::Exact, &s).unwrap().kind, EngineKind::Exact);
 }
 
 // --- exact against approximate in the overlap --------------------------------------------

@@ -3,8 +3,8 @@
 //! the Monte-Carlo standard error and all seeds are fixed, so the tests are deterministic.
 
 use rayon::prelude::*;
-use seedline::arg::{Arg, ArgConfig, ArgSimulator};
 use seedline::batch::{master_key, replicate_rng};
+use seedline::engine::arg::{Arg, ArgConfig, ArgSimulator};
 use seedline::scenario::Scenario;
 mod common;
 use common::assert_close;

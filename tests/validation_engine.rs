@@ -5,6 +5,7 @@
 
 use seedline::batch::{BatchConfig, master_key, replicate_rng};
 use seedline::dormancy::LookBack;
+use seedline::engine::Engine;
 use seedline::engine::Simulator;
 use seedline::scenario::Scenario;
 use statrs::distribution::{ChiSquared, ContinuousCDF};
@@ -27,7 +28,7 @@ fn collect<T: Send>(s: &Scenario, reps: u64, f: impl Fn(&seedline::genealogy::Ge
         s,
         &idx,
         BatchConfig::default(),
-        |sim, sc, _, rng| f(&sim.simulate(sc, rng)),
+        |sim, sc, _, rng| f(&Engine::exact(sc).simulate_tree(sim, rng)),
         |_, v| {
             out.push(v);
             Ok(())
@@ -170,7 +171,7 @@ fn same_seed_same_results_for_any_thread_count() {
             &idx,
             BatchConfig { threads, chunk: 7 },
             |sim, sc, _, rng| {
-                let g = sim.simulate(sc, rng);
+                let g = Engine::exact(sc).simulate_tree(sim, rng);
                 (g.tmrca(), g.total_length(), g.steps())
             },
             |_, v| {

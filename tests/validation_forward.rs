@@ -6,6 +6,7 @@
 use rand::{Rng, RngExt, SeedableRng, rngs::ChaCha8Rng};
 use seedline::batch::BatchConfig;
 use seedline::dormancy::{Dormancy, LookBack};
+use seedline::engine::Engine;
 use seedline::scenario::Scenario;
 use statrs::distribution::{ChiSquared, ContinuousCDF};
 use std::collections::HashMap;
@@ -173,7 +174,7 @@ fn engine_agrees_with_a_forward_pedigree_in_distribution() {
         &idx,
         BatchConfig::default(),
         |sim, sc, _, r| {
-            let g = sim.simulate(sc, r);
+            let g = Engine::exact(sc).simulate_tree(sim, r);
             (g.tmrca(), g.total_length())
         },
         |_, v| {

@@ -54,7 +54,14 @@ fn layout_null_is_calibrated() {
     null::like(&mut raw, &first, "null").unwrap();
     let s = Scenario::from_raw(raw, "null").unwrap();
     assert_eq!(s.locus_lengths(), Some(&[500u64; 20][..]));
-    let cfg = NullConfig { replicates: b, shard: (0, 1), chunk: 100, count: Count::Poisson, max_new_chunks: None };
+    let cfg = NullConfig {
+        replicates: b,
+        shard: (0, 1),
+        chunk: 100,
+        count: Count::Poisson,
+        max_new_chunks: None,
+        engine: seedline::engine::EngineChoice::Exact,
+    };
     null::run(&s, cfg, BatchConfig::default(), &d.join("null"), &|_| {}).unwrap();
     let table = null::load(&d.join("null")).unwrap();
     assert!(!table.loci_files.is_empty(), "per-locus rows are written with several loci");

@@ -2,6 +2,7 @@
 //! tolerances are multiples of the Monte-Carlo standard error; seeds are fixed.
 
 use seedline::batch::{BatchConfig, Keep, simulate_replicate};
+use seedline::engine::Engine;
 use seedline::scenario::Scenario;
 use seedline::stats::{SampleStats, harmonic, harmonic_squares};
 use seedline::theory::two_lineage::PairChain;
@@ -23,7 +24,7 @@ fn stats(s: &Scenario, reps: u64) -> Vec<SampleStats> {
         s,
         &idx,
         BatchConfig::default(),
-        |sim, sc, rep, _| simulate_replicate(sim, sc, &key, rep, Keep::default(), &labels, None).unwrap(),
+        |sim, sc, rep, _| simulate_replicate(&Engine::exact(sc), sim, &key, rep, Keep::default(), &labels).unwrap(),
         |_, loci| {
             out.push(loci[0].stats.clone().unwrap());
             Ok(())
@@ -114,7 +115,7 @@ fn pair_time_matches_the_exact_gap_chain_in_distribution() {
         &s,
         &idx,
         BatchConfig::default(),
-        |sim, sc, _, rng| sim.simulate(sc, rng).tmrca().unwrap(),
+        |sim, sc, _, rng| Engine::exact(sc).simulate_tree(sim, rng).tmrca().unwrap(),
         |_, v| {
             t.push(v);
             Ok(())
@@ -149,12 +150,12 @@ fn loci_add_up_and_the_locus_mean_of_d_tightens() {
     let many = scenario(&format!("seed: 2\nloci: 8\n{base}"));
     let key = seedline::batch::master_key(2);
     let labels: Vec<String> = many.samples().iter().map(|x| x.label.clone()).collect();
-    let mut sim = seedline::engine::Simulator::new();
+    let mut sim = seedline::engine::Scratch::default();
     let reps = 1500;
     let mut summed = Vec::new();
     let mut dmean = Vec::new();
     for rep in 0..reps {
-        let loci = simulate_replicate(&mut sim, &many, &key, rep, Keep::default(), &labels, None).unwrap();
+        let loci = simulate_replicate(&Engine::exact(&many), &mut sim, &key, rep, Keep::default(), &labels).unwrap();
         assert_eq!(loci.len(), 8);
         summed.push(loci.iter().map(|l| l.stats.as_ref().unwrap().segregating_sites as f64).sum::<f64>());
         let ds: Vec<f64> = loci.iter().filter_map(|l| l.stats.as_ref().unwrap().tajima_d).collect();

@@ -4,11 +4,12 @@
 //! tolerances are multiples of the Monte-Carlo standard error and all seeds are fixed.
 
 use rayon::prelude::*;
-use seedline::arg::{ArgConfig, ArgSimulator, ld_decay};
 use seedline::batch::{self, BatchConfig, Keep, LocusOutcome, locus_rng, master_key, simulate_replicate};
-use seedline::engine::Simulator;
+use seedline::engine::arg::{ArgConfig, ArgSimulator};
+use seedline::engine::{Engine, Scratch};
 use seedline::scenario::{Error, Scenario};
 use seedline::stats::harmonic;
+use seedline::stats::ld::ld_decay;
 use seedline::theory::kingman;
 use std::path::PathBuf;
 mod common;
@@ -33,9 +34,12 @@ fn rate_for(rho: f64, n_pop: u64, sites: u64) -> f64 {
 fn outcomes(s: &Scenario, reps: u64, keep: Keep) -> Vec<LocusOutcome> {
     let key = master_key(s.seed());
     let labels: Vec<String> = s.samples().iter().map(|x| x.label.clone()).collect();
+    let engine = Engine::exact(s);
     (0..reps)
         .into_par_iter()
-        .map_init(Simulator::new, |sim, r| simulate_replicate(sim, s, &key, r, keep, &labels, None).unwrap().remove(0))
+        .map_init(Scratch::default, |sim, r| {
+            simulate_replicate(&engine, sim, &key, r, keep, &labels).unwrap().remove(0)
+        })
         .collect()
 }
 
@@ -184,7 +188,7 @@ fn mutations_along_the_sequence_sit_on_their_local_tree() {
     for rep in 0..20 {
         let mut rng = locus_rng(&key, rep, 0);
         let arg = ArgSimulator::new().simulate(&s, &config, &mut rng);
-        let m = seedline::mutation::place_along(&arg, s.mutation().unwrap(), vec![0; 6], &mut rng).unwrap();
+        let m = seedline::mutation::place_along(arg.trees(), s.mutation().unwrap(), vec![0; 6], &mut rng).unwrap();
         assert!(m.positions.windows(2).all(|w| w[0] < w[1]));
         assert!(m.positions.iter().all(|&p| (1..=sites).contains(&p)));
         for (j, &p) in m.positions.iter().enumerate() {
@@ -277,7 +281,8 @@ fn simulate_writes_ld_decay_and_is_identical_for_any_thread_count() {
     let run = |threads: usize| {
         let dir = temp_dir(&format!("t{threads}"));
         let config = BatchConfig { threads, chunk: 16 };
-        seedline::report::simulate_to_dir(&s, "test", config, Default::default(), &dir, &|| ()).unwrap();
+        let options = seedline::report::SimulateOptions { ld: true, ..Default::default() };
+        seedline::report::simulate_to_dir(&s, "test", config, options, &dir, &|| ()).unwrap();
         let read = |f: &str| std::fs::read_to_string(dir.join(f)).unwrap();
         let files = (read("replicates.tsv"), read("trees.nwk"), read("ld.tsv"));
         std::fs::remove_dir_all(&dir).unwrap();
@@ -287,7 +292,7 @@ fn simulate_writes_ld_decay_and_is_identical_for_any_thread_count() {
     assert_eq!(one, run(2), "outputs differ between 1 and 2 threads");
     let (table, trees, ld) = one;
     let header: Vec<&str> = table.lines().next().unwrap().split('\t').collect();
-    assert_eq!(header.last(), Some(&"breakpoints"));
+    assert_eq!(&header[header.len() - 2..], &["breakpoints", "crossovers"]);
     assert_eq!(&header[..5], &["replicate", "tmrca", "roots", "total_length", "jumps"]);
     assert!(trees.lines().next().unwrap().starts_with("[replicate 0 locus 1 sites 0-"), "{}", &trees[..60]);
     let rows: Vec<(u64, u64, u64, Option<f64>)> = ld
@@ -318,4 +323,85 @@ fn distance_bins_cover_the_sequence() {
     assert_eq!(batch::ld_bins(10), [1, 2, 5, 10]);
     assert_eq!(batch::ld_bins(2), [1, 2]);
     assert_eq!(batch::ld_bins(1), [1, 2]);
+}
+
+/// Expected invisible crossovers per unit of rho: sum_{k=2}^n F(k)/(k-1), with F(k) the
+/// chance that a lineage detached from a branch while k lineages exist re-joins that branch
+/// before the branch ends (see `breakpoints_follow_the_smc_prime_rate_without_dormancy`).
+fn invisible_per_rho(n: u32) -> f64 {
+    let mut f = 0.0;
+    let mut sum = 0.0;
+    for k in 2..=n {
+        let k = k as f64;
+        f = 2.0 / (k * (k + 1.0)) + (k - 1.0) * (k - 2.0) / (k * (k + 1.0)) * f;
+        sum += f / (k - 1.0);
+    }
+    sum
+}
+
+#[test]
+fn breakpoints_follow_the_smc_prime_rate_without_dormancy() {
+    // A crossover on the genealogy of the sample (rho a_n of them: Hudson & Kaplan 1985) changes
+    // the tree unless the detached lineage re-joins the branch it left before that branch ends;
+    // to first order in the per-gap rate this is exact, and it is the SMC' picture (Marjoram &
+    // Wall 2006, BMC Genet. 7:16 [M]). Derived here: a lineage detached at a time when k lineages
+    // exist meets each of them (its own branch included) at rate 1, so the chance F(k) to meet
+    // its own branch first satisfies, over the rest of the epoch (length Exp(C(k,2))) and the
+    // next coalescence (which ends the branch with chance 2/k),
+    //   F(k) = 2/(k(k+1)) + (k-1)(k-2)/(k(k+1)) F(k-1),   F(2) = 1/3,
+    // and E[breakpoints] = rho (a_n - sum_{k<=n} F(k)/(k-1)) = rho (a_n - 2(n-1)/(3n))
+    // (closed form checked against the recursion below): 2 rho / 3 for n = 2.
+    for n in [2u32, 3, 6, 12, 40] {
+        let closed = 2.0 * (n as f64 - 1.0) / (3.0 * n as f64);
+        assert!((invisible_per_rho(n) - closed).abs() < 1e-12, "n = {n}");
+    }
+    // N = 1000 (discreteness O(1/N) = 0.1%), L = 2001 sites, rho = 8 (0.004 per gap: two
+    // crossovers in one gap are negligible).
+    let (n_pop, sites, rho) = (1000, 2001, 8.0);
+    for (n, seed) in [(2u64, 21), (6, 22)] {
+        let s = scenario(seed, n_pop, n, sites, 0.0, rate_for(rho, n_pop, sites));
+        let out = outcomes(&s, 2000, Keep::default());
+        let b: Vec<f64> = out.iter().map(|o| o.breakpoints.unwrap() as f64).collect();
+        let expected = rho * (harmonic(n as u32) - invisible_per_rho(n as u32));
+        eprintln!(
+            "n = {n}: breakpoints {:?} (mean, se), SMC' {expected}, rho a_n {}",
+            mean_se(&b),
+            rho * harmonic(n as u32)
+        );
+        assert_close(&format!("breakpoints, n = {n}"), &b, expected, 4.0);
+    }
+}
+
+#[test]
+fn breakpoints_under_dormancy_count_visible_changes_with_the_scaled_rho() {
+    // With dormancy of finite mean the genealogy is the KKL time-changed coalescent (time
+    // N E[R]^2/d generations per unit) and crossovers happen only at reproduction events,
+    // 1/E[R] per lineage per generation: rho_eff = 2 N r (L-1) E[R] / d (documented on
+    // `Arg::breakpoints`). Geometric mean 2 (E[R] = 2, d = 1), N = 1000, n = 4, rho = 4:
+    // rho_eff = 8 and E[breakpoints] = 8 (a_4 - 1/2) = 10.667 (formula of the test above).
+    // Adjacent trees that differ only in the jumps of an edge are not breakpoints: they
+    // exist (the local trees outnumber the breakpoints) but are not counted.
+    let (n_pop, sites, rho) = (1000u64, 2001u64, 4.0);
+    let yaml = format!(
+        "seed: 23\ndemes: [{{name: a, size: {n_pop}, dormancy: {{law: geometric, mean: 2}}}}]\n\
+         samples: [{{deme: a, count: 4}}]\nmutation: {{rate: 0.0, sites: {sites}}}\nrecombination: {{rate: {:e}}}\n",
+        rate_for(rho, n_pop, sites)
+    );
+    let s = Scenario::from_yaml_str(&yaml, "test").unwrap();
+    let key = master_key(s.seed());
+    let config = *s.recombination().unwrap();
+    let runs: Vec<(f64, f64)> = (0..2000u64)
+        .into_par_iter()
+        .map(|r| {
+            let arg = ArgSimulator::new().simulate(&s, &config, &mut locus_rng(&key, r, 0));
+            (arg.breakpoints() as f64, (arg.trees().len() - 1) as f64)
+        })
+        .collect();
+    let b: Vec<f64> = runs.iter().map(|r| r.0).collect();
+    let all: Vec<f64> = runs.iter().map(|r| r.1).collect();
+    let rho_eff = rho * 2.0;
+    let expected = rho_eff * (harmonic(4) - invisible_per_rho(4));
+    eprintln!("breakpoints {:?}, tree changes with jumps {:?}, expected {expected}", mean_se(&b), mean_se(&all));
+    assert_close("breakpoints under dormancy", &b, expected, 4.0);
+    assert!(mean_se(&all).0 > mean_se(&b).0 + 1.0, "jump-only changes should be frequent under dormancy");
 }

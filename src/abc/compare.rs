@@ -41,11 +41,20 @@ pub struct CompareOptions {
     pub adjust: Adjust,
     /// Worker threads (0 = one per core).
     pub threads: usize,
+    /// The engine asked for (`--engine`), resolved for each draw from the priors.
+    pub engine: crate::engine::EngineChoice,
 }
 
 impl Default for CompareOptions {
     fn default() -> Self {
-        CompareOptions { simulations: 1000, tolerance: 0.05, statistics: None, adjust: Adjust::None, threads: 0 }
+        CompareOptions {
+            simulations: 1000,
+            tolerance: 0.05,
+            statistics: None,
+            adjust: Adjust::None,
+            threads: 0,
+            engine: crate::engine::EngineChoice::Auto,
+        }
     }
 }
 
@@ -354,6 +363,8 @@ pub struct CompareRun {
     pub options: CompareOptions,
     /// Reference tables.
     pub tables: Vec<Vec<Simulated>>,
+    /// How often each engine ran, per hypothesis.
+    pub engines: Vec<crate::engine::EngineTally>,
     /// Results.
     pub analysis: Analysis,
     /// What the reader should know.
@@ -443,15 +454,19 @@ pub fn run(
     let seeds: Vec<u64> =
         hypotheses.iter().enumerate().map(|(i, h)| super::hypothesis_seed(h.seed, i as u64)).collect();
     let mut tables = Vec::new();
+    let mut engines = Vec::new();
     for (h, &seed) in hypotheses.iter().zip(&seeds) {
-        tables.push(super::simulate_hypothesis(
+        let (table, tally) = super::simulate_hypothesis(
             h,
             seed,
             0..options.simulations,
             &statistics,
             options.threads,
+            options.engine,
             progress,
-        )?);
+        )?;
+        tables.push(table);
+        engines.push(tally);
     }
     let priors: Vec<&[super::Prior]> = hypotheses.iter().map(|h| h.priors.as_slice()).collect();
     let refs: Vec<&[Simulated]> = tables.iter().map(Vec::as_slice).collect();
@@ -474,6 +489,7 @@ pub fn run(
         observed: obs,
         options,
         tables,
+        engines,
         analysis,
         notes,
         warnings,
@@ -567,6 +583,7 @@ pub fn write(run: &CompareRun, dir: &Path) -> Result<Vec<std::path::PathBuf>, Er
             "mc_error": a.shares[k].mc_error,
             "logistic": a.logistic.as_ref().map(|l| serde_json::json!({"probability": l[k].0, "se": l[k].1})),
             "undefined_simulations": a.undefined[k],
+            "engine": run.engines[k],
             "estimation": a.estimation[k].as_ref().map(|e| serde_json::json!({
                 "scales": e.scales,
                 "accepted": e.accepted.len(),

@@ -298,6 +298,8 @@ pub struct DesignOptions {
     pub threads: usize,
     /// Per-locus site counts of observed data (`--like`), applied to every design.
     pub layout: Option<Vec<u64>>,
+    /// The engine asked for (`--engine`), resolved for each design and draw from the priors.
+    pub engine: crate::engine::EngineChoice,
 }
 
 impl Default for DesignOptions {
@@ -310,6 +312,7 @@ impl Default for DesignOptions {
             statistics: None,
             threads: 0,
             layout: None,
+            engine: crate::engine::EngineChoice::Auto,
         }
     }
 }
@@ -333,6 +336,8 @@ pub struct DesignRun {
     pub rows: Vec<PowerRow>,
     /// Seeds of the null and the alternative.
     pub seeds: (u64, u64),
+    /// How often each engine ran: (design, null, alternative), in file order.
+    pub engines: Vec<(String, crate::engine::EngineTally, crate::engine::EngineTally)>,
     /// What the reader should know.
     pub notes: Vec<String>,
 }
@@ -452,9 +457,13 @@ pub fn run(
     notes.extend(more);
     let seeds = (super::hypothesis_seed(null.seed, 0), super::hypothesis_seed(alternative.seed, 1));
     let mut rows = Vec::new();
+    let mut engines = Vec::new();
     for (d, (h0, s0, h1, _)) in designs.designs.iter().zip(&variants) {
-        let nsim = super::simulate_hypothesis(h0, seeds.0, 0..o.replicates, &statistics, o.threads, progress)?;
-        let asim = super::simulate_hypothesis(h1, seeds.1, 0..o.power_replicates, &statistics, o.threads, progress)?;
+        let (nsim, e0) =
+            super::simulate_hypothesis(h0, seeds.0, 0..o.replicates, &statistics, o.threads, o.engine, progress)?;
+        let (asim, e1) =
+            super::simulate_hypothesis(h1, seeds.1, 0..o.power_replicates, &statistics, o.threads, o.engine, progress)?;
+        engines.push((d.name.clone(), e0, e1));
         let (cost, n) = design_cost(s0, &designs.costs);
         rows.extend(powers(&d.name, cost, n, &statistics, &nsim, &asim, o.level));
     }
@@ -467,6 +476,7 @@ pub fn run(
         statistics,
         rows,
         seeds,
+        engines,
         notes,
     })
 }
@@ -502,6 +512,7 @@ pub fn write(run: &DesignRun, dir: &Path) -> Result<Vec<std::path::PathBuf>, Err
         "interval": "Wilson score 95%",
         "rows": run.rows,
         "cheapest_reaching_target": cheapest,
+        "engines": run.engines.iter().map(|(d, n, a)| serde_json::json!({"design": d, "null": n, "alternative": a})).collect::<Vec<_>>(),
         "notes": run.notes,
     });
     let text = serde_json::to_string_pretty(&json).map_err(|e| Error::Options(e.to_string()))?;

@@ -30,7 +30,7 @@ pub mod rejection;
 pub use prior::{Hypothesis, Prior, PriorKind};
 
 use crate::batch::{Keep, locus_rng, master_key, simulate_replicate};
-use crate::engine::Simulator;
+use crate::engine::{Engine, EngineChoice, EngineTally, Scratch};
 use crate::scenario::Scenario;
 use rand::rngs::ChaCha8Rng;
 use rayon::prelude::*;
@@ -102,6 +102,16 @@ pub enum Error {
         line: Option<u64>,
         /// What is wrong and what is allowed.
         message: String,
+    },
+    /// The requested engine cannot run a scenario drawn from the priors.
+    #[error("{file}: with {values}")]
+    Engine {
+        /// File name.
+        file: String,
+        /// The drawn values, `path = value`.
+        values: String,
+        /// Why.
+        source: crate::engine::Error,
     },
     /// Mutations could not be placed.
     #[error("{file}: simulation {index}")]
@@ -393,34 +403,57 @@ pub fn statistic_values(scenario: &Scenario, loci: &[crate::batch::LocusOutcome]
 
 /// Simulates `count` datasets of a hypothesis from master seed `seed` (see the module
 /// documentation for the streams), in parallel on `threads` workers (0 = one per core);
-/// results are in index order and do not depend on `threads`.
+/// results are in index order and do not depend on `threads`. Each dataset's scenario (its
+/// draw from the priors) runs on the engine that `engine` resolves to for it; the tally
+/// says how often each engine ran.
 pub fn simulate_hypothesis(
     h: &Hypothesis,
     seed: u64,
     indices: std::ops::Range<u64>,
     names: &[String],
     threads: usize,
+    engine: EngineChoice,
     progress: &(dyn Fn() + Sync),
-) -> Result<Vec<Simulated>, Error> {
+) -> Result<(Vec<Simulated>, EngineTally), Error> {
     let pool = rayon::ThreadPoolBuilder::new()
         .num_threads(threads)
         .build()
         .map_err(|source| Error::Threads { threads, source })?;
     let key = master_key(seed);
-    pool.install(|| {
+    let runs: Vec<(Simulated, crate::engine::EngineDecision)> = pool.install(|| {
         indices
             .into_par_iter()
-            .map_init(Simulator::new, |sim, i| {
+            .map_init(Scratch::default, |scratch, i| {
                 let mut prng = parameter_rng(&key, i);
                 let (params, scenario) = h.draw(&mut prng)?;
+                let run = Engine::new(&scenario, engine).map_err(|e| Error::Engine {
+                    file: h.origin.clone(),
+                    values: h
+                        .priors
+                        .iter()
+                        .zip(&params)
+                        .map(|(p, x)| format!("{} = {x}", p.path))
+                        .collect::<Vec<_>>()
+                        .join(", "),
+                    source: e,
+                })?;
                 let labels: Vec<String> = scenario.samples().iter().map(|s| s.label.clone()).collect();
-                let loci = simulate_replicate(sim, &scenario, &key, i, Keep::default(), &labels, None)
+                let loci = simulate_replicate(&run, scratch, &key, i, Keep::default(), &labels)
                     .map_err(|source| Error::Simulation { file: h.origin.clone(), index: i, source })?;
                 progress();
-                Ok(Simulated { params, ..statistic_values(&scenario, &loci, names) })
+                Ok((Simulated { params, ..statistic_values(&scenario, &loci, names) }, run.decision().clone()))
             })
-            .collect()
-    })
+            .collect::<Result<_, Error>>()
+    })?;
+    let mut tally = EngineTally::new(engine);
+    let table = runs
+        .into_iter()
+        .map(|(sim, d)| {
+            tally.add(&d);
+            sim
+        })
+        .collect();
+    Ok((table, tally))
 }
 
 /// Resolves the statistics to use: the requested ones (each must be produced by every

@@ -11,7 +11,10 @@ pub mod raw;
 
 pub use raw::RawScenario;
 
-use crate::arg::ArgConfig;
+mod recombination;
+
+pub use recombination::{ArgConfig, ArgError};
+
 use crate::demography::{Migration, SizeEpoch, SizeHistory};
 use crate::dormancy::{self, Dormancy, SeedAge};
 use crate::mutation::MutationModel;
@@ -249,7 +252,10 @@ impl Scenario {
     /// Recombination within locus `locus`: the scenario's rate along that locus's sites.
     pub fn locus_recombination(&self, locus: u64) -> Option<ArgConfig> {
         let r = self.recombination.as_ref()?;
-        ArgConfig::new(self.locus_sites(locus)?, r.recombination_rate()).ok()
+        match self.locus_lengths.as_ref().and_then(|v| v.get(locus as usize)) {
+            Some(&sites) => ArgConfig::new(sites, r.recombination_rate()).ok().or(Some(*r)),
+            None => Some(*r),
+        }
     }
     /// The scenario as parsed, with defaults filled in (for reports).
     pub fn normalized(&self) -> &RawScenario {

@@ -85,7 +85,7 @@ pub fn exact_readings(s: &Scenario, reps: u64, pairs: &[(usize, usize)]) -> Vec<
         s,
         &idx,
         BatchConfig::default(),
-        |sim, sc, _, rng| read(sc, &sim.simulate(sc, rng), pairs),
+        |scratch, sc, _, rng| read(sc, &seedline::engine::Engine::exact(sc).simulate_tree(scratch, rng), pairs),
         |_, r| {
             out.push(r);
             Ok(())

@@ -53,72 +53,17 @@
 //! and then starts dormant at t, otherwise it is a one-generation seed whose parent is active
 //! at t + 1.
 
+use super::EngineKind;
 use crate::demography::SizeEpoch;
 use crate::genealogy::{Genealogy, Node};
 use crate::scenario::{SampleKind, Scenario};
 use rand::{Rng, RngExt};
 use rand_distr::{Distribution, Exp1};
-use std::fmt;
-use std::str::FromStr;
 
 // The rule of `auto` lives in `theory::limits`, shared with `predict`; re-exported here.
 pub use crate::theory::limits::{
     DemeLimit as DemeModel, LOOKBACK_TAIL, MAX_LOOKBACK_FRACTION, MAX_SWITCH_RATE, MIN_DEME_SIZE, lookback_scale,
 };
-
-/// Which engine the user asked for.
-#[derive(Debug, Clone, Copy, PartialEq, Eq, Default, serde::Serialize)]
-#[serde(rename_all = "snake_case")]
-pub enum EngineChoice {
-    /// The exact discrete engine, always.
-    Exact,
-    /// The approximate engine; an error when the scenario is outside its domain.
-    Approx,
-    /// The approximate engine where a limit applies (see [`choose`]), else the exact one.
-    #[default]
-    Auto,
-}
-
-impl FromStr for EngineChoice {
-    type Err = ApproxError;
-    fn from_str(s: &str) -> Result<Self, Self::Err> {
-        match s {
-            "exact" => Ok(EngineChoice::Exact),
-            "approx" => Ok(EngineChoice::Approx),
-            "auto" => Ok(EngineChoice::Auto),
-            other => Err(ApproxError::UnknownEngine(other.to_string())),
-        }
-    }
-}
-
-impl fmt::Display for EngineChoice {
-    fn fmt(&self, f: &mut fmt::Formatter<'_>) -> fmt::Result {
-        f.write_str(match self {
-            EngineChoice::Exact => "exact",
-            EngineChoice::Approx => "approx",
-            EngineChoice::Auto => "auto",
-        })
-    }
-}
-
-/// The engine that runs.
-#[derive(Debug, Clone, Copy, PartialEq, Eq, serde::Serialize)]
-#[serde(rename_all = "snake_case")]
-pub enum EngineKind {
-    /// [`crate::engine::Simulator`].
-    Exact,
-    /// [`ApproxModel`].
-    Approx,
-}
-
-/// The engine that runs and why (written into `summary.json`).
-#[derive(Debug, Clone, PartialEq, Eq, serde::Serialize)]
-pub struct EngineDecision {
-    /// The engine.
-    pub kind: EngineKind,
-    /// Why, in words.
-    pub reason: String,
-}
 
 /// Why the approximate engine cannot run a scenario.
 #[derive(Debug, Clone, PartialEq, Eq, thiserror::Error)]
@@ -132,9 +77,6 @@ pub enum ApproxError {
         /// What is wrong.
         reason: String,
     },
-    /// An engine name other than exact, approx or auto.
-    #[error("unknown engine `{0}`: use exact, approx or auto")]
-    UnknownEngine(String),
 }
 
 /// The limit model of every deme, or why one deme has none ([`crate::theory::limits::deme_limits`]).
@@ -152,37 +94,6 @@ pub fn choose(scenario: &Scenario) -> (EngineKind, String) {
     }
     let c = crate::theory::limits::check(scenario);
     (if c.holds { EngineKind::Approx } else { EngineKind::Exact }, c.reason)
-}
-
-/// Resolves a user's choice: `exact` always runs; `approx` runs when every deme has a limit
-/// model (an error otherwise; the reason notes when `auto` would pick exact); `auto` is
-/// [`choose`].
-pub fn resolve(choice: EngineChoice, scenario: &Scenario) -> Result<EngineDecision, ApproxError> {
-    Ok(match choice {
-        EngineChoice::Exact => {
-            EngineDecision { kind: EngineKind::Exact, reason: "exact engine (requested)".to_string() }
-        }
-        EngineChoice::Approx => {
-            if scenario.recombination().is_some() {
-                return Err(ApproxError::OutOfDomain {
-                    deme: "all".to_string(),
-                    reason: "the approximate engine has no recombination: use --engine exact or auto".to_string(),
-                });
-            }
-            deme_models(scenario)?;
-            let reason = match choose(scenario) {
-                (EngineKind::Approx, why) => format!("{why} (requested)"),
-                (EngineKind::Exact, why) => {
-                    format!("approximate engine (requested) outside its accuracy range; auto would pick {why}")
-                }
-            };
-            EngineDecision { kind: EngineKind::Approx, reason }
-        }
-        EngineChoice::Auto => {
-            let (kind, reason) = choose(scenario);
-            EngineDecision { kind, reason }
-        }
-    })
 }
 
 /// Simulates one genealogy with the approximate engine (builds the model each call).

@@ -6,40 +6,13 @@
 //! labelled tree with the same jumps on every edge, even if made of different ancestral
 //! individuals: a tree node is identified by (smallest sample below it, time), which is
 //! unique (two nodes above one sample are on one root path, hence at different times).
+//! Neighbours that differ only in the jumps of some edge (the same genealogy reached through
+//! other dormant periods) stay apart, since mutation rates may differ between dormant and
+//! reproducing generations, but the change is not a breakpoint a user can see: the visible
+//! breakpoints count the changes of topology or node times only.
 
 use super::{EdgeRec, RootRec};
-use crate::genealogy::{Genealogy, Node};
-
-/// The genealogy of the sites [left, right) of the sequence.
-#[derive(Debug, Clone)]
-pub struct LocalTree {
-    left: u64,
-    right: u64,
-    genealogy: Genealogy,
-}
-
-impl LocalTree {
-    /// First site of the interval.
-    pub fn left(&self) -> u64 {
-        self.left
-    }
-
-    /// One past the last site of the interval.
-    pub fn right(&self) -> u64 {
-        self.right
-    }
-
-    /// Number of sites the tree holds for, `right - left` (>= 1).
-    pub fn sites(&self) -> u64 {
-        self.right - self.left
-    }
-
-    /// The tree (a forest when some lineage stopped at the horizon or at a founder): samples
-    /// are nodes `0..n`, edges carry length in generations and jumps (reproduction events).
-    pub fn genealogy(&self) -> &Genealogy {
-        &self.genealogy
-    }
-}
+use crate::genealogy::{Genealogy, LocalTree, Node};
 
 /// One row of a tree's canonical form: (parent key, child key, jumps), or a root's key.
 type Row = (u32, u64, u32, u64, u64);
@@ -152,7 +125,7 @@ pub(crate) fn build(
     nodes: &[Node],
     edges: &mut Vec<EdgeRec>,
     roots: &mut Vec<RootRec>,
-) -> Vec<LocalTree> {
+) -> (Vec<LocalTree>, usize) {
     join_edges(edges);
     join_roots(roots);
     let mut cuts: Vec<u64> = Vec::with_capacity(2 * (edges.len() + roots.len()) + 2);
@@ -177,6 +150,7 @@ pub(crate) fn build(
     let (mut ie, mut ir) = (0, 0);
     let mut trees: Vec<LocalTree> = Vec::new();
     let (mut canon, mut prev) = (Vec::new(), Vec::new());
+    let mut visible = 0;
     for w in cuts.windows(2) {
         let (x, y) = (w[0], w[1]);
         active.retain(|e| e.right > x);
@@ -191,13 +165,19 @@ pub(crate) fn build(
         }
         sweep.canonical(&active, &active_roots, &mut canon);
         match trees.last_mut() {
-            Some(t) if canon == prev => t.right = y,
+            Some(t) if canon == prev => t.extend_to(y),
             _ => {
+                // Rows sort by (parent, child) before jumps, and each child has one row, so
+                // the genealogy without jumps changed iff the rows differ outside the jumps.
+                let dated = |r: &Row| (r.0, r.1, r.2, r.3);
+                if !trees.is_empty() && !canon.iter().map(dated).eq(prev.iter().map(dated)) {
+                    visible += 1;
+                }
                 let genealogy = sweep.genealogy(&active, &active_roots);
-                trees.push(LocalTree { left: x, right: y, genealogy });
+                trees.push(LocalTree::new(x, y, genealogy));
                 std::mem::swap(&mut canon, &mut prev);
             }
         }
     }
-    trees
+    (trees, visible)
 }

@@ -117,10 +117,3 @@ fn horizon_leaves_a_forest() {
     // E[T_4 first event] = N / 6 ≈ 16667 generations ≫ 50: almost surely no merge.
     assert_eq!(g.roots().len(), 4);
 }
-
-#[test]
-fn engine_choice_parses() {
-    assert_eq!("auto".parse::<EngineChoice>().unwrap(), EngineChoice::Auto);
-    assert_eq!(EngineChoice::Approx.to_string(), "approx");
-    assert!("fast".parse::<EngineChoice>().is_err());
-}

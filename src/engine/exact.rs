@@ -14,15 +14,14 @@
 //! Lineages that would jump beyond the horizon, or reach a founder, stop: the result is then
 //! a forest, never an endless loop. When one lineage is left it is the root.
 
+use super::queue::{Keyed, Queue};
 use crate::dormancy::Dormancy;
 use crate::genealogy::{Genealogy, Node};
 use crate::scenario::{SampleKind, Scenario};
 use rand::{Rng, RngExt};
-use std::cmp::Reverse;
-use std::collections::BinaryHeap;
 
 /// A lineage waiting at (time, deme), or a sampled individual not yet reached.
-#[derive(Debug, Clone, Copy, PartialEq, Eq, PartialOrd, Ord)]
+#[derive(Debug, Clone, Copy, PartialEq, Eq)]
 struct Entry {
     /// time * n_demes + deme: one integer orders by time, then deme.
     key: u64,
@@ -34,10 +33,17 @@ struct Entry {
     sample: bool,
 }
 
+impl Keyed for Entry {
+    #[inline(always)]
+    fn key(&self) -> u64 {
+        self.key
+    }
+}
+
 /// Simulates genealogies; owns scratch buffers reused across replicates.
 #[derive(Debug, Default)]
 pub struct Simulator {
-    heap: BinaryHeap<Reverse<Entry>>,
+    queue: Queue<Entry>,
     group: Vec<Entry>,
     seat: Vec<u32>,
     order: Vec<u32>,
@@ -63,13 +69,13 @@ impl Simulator {
         let model = Model::new(scenario);
         let samples = scenario.samples();
         let mut g = Genealogy::with_samples(samples.len());
-        self.heap.clear();
+        self.queue.clear();
         let mut steps = 0u64;
         for (i, s) in samples.iter().enumerate() {
             let node = g.add_node(Node { time: s.time, deme: s.deme, sample: Some(i as u32) });
             match s.kind {
                 SampleKind::Population => {
-                    self.heap.push(Reverse(Entry { key: model.key(s.time, s.deme), node, jumps: 0, sample: true }))
+                    self.queue.push(Entry { key: model.key(s.time, s.deme), node, jumps: 0, sample: true })
                 }
                 SampleKind::Seedbank => {
                     // The seed was made a + 1 generations before sampling by a parent of the
@@ -81,7 +87,7 @@ impl Simulator {
                     if t > model.horizon {
                         g.add_root(node);
                     } else {
-                        self.heap.push(Reverse(Entry { key: model.key(t, to), node, jumps: 1, sample: false }));
+                        self.queue.push(Entry { key: model.key(t, to), node, jumps: 1, sample: false });
                     }
                 }
             }
@@ -90,30 +96,36 @@ impl Simulator {
         // as nothing else is left to merge, instead of walking to the horizon: checked at the
         // start, after every merge and when a migration epoch ends.
         let mut check_at = if model.reach { 0 } else { u64::MAX };
-        while let Some(&Reverse(top)) = self.heap.peek() {
-            if self.heap.len() == 1 {
-                self.heap.pop();
+        while let Some(&top) = self.queue.peek() {
+            if self.queue.len() == 1 {
+                self.queue.pop();
                 g.add_root(top.node);
                 break;
             }
-            self.heap.pop();
             let (time, deme) = model.split(top.key);
             if time >= check_at {
-                if self.all_apart(&model, top) {
-                    g.add_root(top.node);
-                    for Reverse(e) in self.heap.drain() {
+                if self.all_apart(&model) {
+                    for e in self.queue.drain() {
                         g.add_root(e.node);
                     }
                     break;
                 }
                 check_at = model.scenario.migration().next_epoch_start(time);
             }
-            // Hot path: a lone arrival on its generation takes a new individual, no draw needed.
-            if !top.sample && self.heap.peek().is_none_or(|Reverse(e)| e.key != top.key) {
-                steps += self.step(&model, &mut g, top.node, top.jumps, time, deme, rng);
+            // Hot path: a lone arrival on its generation takes a new individual, no draw needed;
+            // its parent's lineage takes its place in the queue.
+            if !top.sample && !self.queue.top_key_shared() {
+                let (next, taken) = self.parent(&model, &mut g, top.node, top.jumps, time, deme, rng);
+                steps += taken;
+                match next {
+                    Some(e) => self.queue.replace_top(e),
+                    None => {
+                        self.queue.pop();
+                    }
+                }
                 continue;
             }
-            pop_group(&mut self.heap, top, |e| e.key, &mut self.group);
+            self.queue.pop_group(&mut self.group);
             let before = self.group.len();
             steps += self.seat_group(&model, &mut g, time, deme, rng);
             if model.reach && self.next.len() < before {
@@ -125,18 +137,16 @@ impl Simulator {
         g
     }
 
-    /// Whether no two of the queued lineages (and `top`) can ever meet. Only asked with few
-    /// lineages left: with many, some pair surely can.
-    fn all_apart(&self, model: &Model, top: Entry) -> bool {
+    /// Whether no two of the queued lineages can ever meet. Only asked with few lineages
+    /// left: with many, some pair surely can.
+    fn all_apart(&self, model: &Model) -> bool {
         const MAX_CHECKED: usize = 64;
-        if self.heap.len() >= MAX_CHECKED {
+        if self.queue.len() > MAX_CHECKED {
             return false;
         }
         let migration = model.scenario.migration();
         let at = |e: &Entry| model.split(e.key);
-        let mut live: Vec<(u64, usize)> = Vec::with_capacity(self.heap.len() + 1);
-        live.push(at(&top));
-        live.extend(self.heap.iter().map(|Reverse(e)| at(e)));
+        let live: Vec<(u64, usize)> = self.queue.iter().map(at).collect();
         for (i, &(t1, d1)) in live.iter().enumerate() {
             for &(t2, d2) in &live[i + 1..] {
                 if migration.may_meet(d1, t1, d2, t2) {
@@ -161,7 +171,7 @@ impl Simulator {
         self.group.sort_unstable_by_key(|e| (!e.sample, e.node));
         seat_lineages(self.group.iter().map(|e| e.sample), n, &mut self.seat, &mut self.order, rng);
         self.merge_runs(g, time, deme);
-        if model.lockstep[deme] && !self.step_by_step && self.heap.is_empty() {
+        if model.lockstep[deme] && !self.step_by_step && self.queue.is_empty() {
             return self.lockstep(model, g, time, deme, rng);
         }
         let mut steps = 0;
@@ -286,37 +296,38 @@ impl Simulator {
         deme: usize,
         rng: &mut R,
     ) -> u64 {
+        let (next, taken) = self.parent(model, g, node, jumps, time, deme, rng);
+        if let Some(e) = next {
+            self.queue.push(e);
+        }
+        taken
+    }
+
+    /// Draws the parent of the individual at (deme, time): the lineage's next entry, or `None`
+    /// when it stops (a founder, or beyond the horizon: then it is a root), and the steps taken.
+    #[inline(always)]
+    #[allow(clippy::too_many_arguments)]
+    fn parent<R: Rng + ?Sized>(
+        &self,
+        model: &Model,
+        g: &mut Genealogy,
+        node: u32,
+        jumps: u64,
+        time: u64,
+        deme: usize,
+        rng: &mut R,
+    ) -> (Option<Entry>, u64) {
         let Some(r) = model.dormancy[deme].sample_at(time, rng) else {
             g.add_root(node);
-            return 0;
+            return (None, 0);
         };
         let to = model.parent_deme(deme, time, rng);
         let t = time.saturating_add(r);
         if t > model.horizon {
             g.add_root(node);
-            return 1;
+            return (None, 1);
         }
-        self.heap.push(Reverse(Entry { key: model.key(t, to), node, jumps: jumps + 1, sample: false }));
-        1
-    }
-}
-
-/// Collects `top` (already popped) and every queued entry with the same key into `group`:
-/// all lineages that landed on one (deme, generation). Shared with the recombination engine.
-pub(crate) fn pop_group<E: Ord + Copy>(
-    heap: &mut BinaryHeap<Reverse<E>>,
-    top: E,
-    key: impl Fn(&E) -> u64,
-    group: &mut Vec<E>,
-) {
-    group.clear();
-    group.push(top);
-    while let Some(&Reverse(e)) = heap.peek() {
-        if key(&e) != key(&top) {
-            break;
-        }
-        group.push(e);
-        heap.pop();
+        (Some(Entry { key: model.key(t, to), node, jumps: jumps + 1, sample: false }), 1)
     }
 }
 

@@ -36,7 +36,7 @@
 //! tree is the engine's genealogy, replicate by replicate.
 //!
 //! ```
-//! use seedline::arg::{ArgConfig, ArgSimulator};
+//! use seedline::engine::arg::{ArgConfig, ArgSimulator};
 //! use seedline::{batch, scenario::Scenario};
 //! let yaml = "demes: [{name: pond, size: 200, dormancy: {law: geometric, mean: 2}}]\n\
 //!             samples: [{deme: pond, count: 4}]\n";
@@ -45,78 +45,22 @@
 //! let config = ArgConfig::new(100, 1e-4).unwrap();
 //! let mut rng = batch::replicate_rng(&batch::master_key(scenario.seed()), 0);
 //! let arg = ArgSimulator::new().simulate(&scenario, &config, &mut rng);
-//! assert_eq!(arg.trees().len(), arg.breakpoints() + 1);
+//! assert!(arg.breakpoints() < arg.trees().len());
 //! assert!(arg.trees().iter().all(|t| t.genealogy().is_tree()));
 //! ```
 
-mod ld;
 mod trees;
 
-pub use ld::{LdBin, ld_decay, r_squared};
-pub use trees::LocalTree;
+pub use crate::genealogy::LocalTree;
 
+pub use crate::scenario::{ArgConfig, ArgError};
+
+use super::queue::{Keyed, Queue};
 use crate::dormancy::Dormancy;
 use crate::genealogy::Node;
 use crate::scenario::{SampleKind, Scenario};
 use rand::{Rng, RngExt};
 use rand_distr::Exp1;
-use std::cmp::Reverse;
-use std::collections::BinaryHeap;
-
-/// Why an [`ArgConfig`] was refused.
-#[derive(Debug, Clone, PartialEq, thiserror::Error)]
-#[non_exhaustive]
-pub enum ArgError {
-    /// The sequence has no site.
-    #[error("the sequence needs at least one site (sites = 0)")]
-    NoSites,
-    /// The sequence is longer than the engine can index.
-    #[error("sites = {0} is more than the largest supported length 2^53")]
-    TooManySites(u64),
-    /// The recombination rate is negative, NaN or infinite.
-    #[error("recombination rate r = {0} must be finite and >= 0 (crossovers per gap per reproduction)")]
-    BadRate(f64),
-}
-
-/// Sequence length and recombination rate of the ARG engine.
-///
-/// `sites` = L, the number of sites (L - 1 gaps); `recombination_rate` = r, the mean number
-/// of crossovers per gap per reproduction event (dormant generations count none). The
-/// population-scaled rate over the whole sequence in one deme of N haploids is
-/// ```text
-/// rho = 2 N r (L - 1)     (coalescent unit N generations; per-lineage rate N r (L-1) = rho/2)
-/// ```
-#[derive(Debug, Clone, Copy, PartialEq)]
-pub struct ArgConfig {
-    sites: u64,
-    recombination_rate: f64,
-}
-
-impl ArgConfig {
-    /// Checks and builds: `sites` in 1..=2^53, `recombination_rate` finite and >= 0.
-    pub fn new(sites: u64, recombination_rate: f64) -> Result<Self, ArgError> {
-        if sites == 0 {
-            return Err(ArgError::NoSites);
-        }
-        if sites > 1 << 53 {
-            return Err(ArgError::TooManySites(sites));
-        }
-        if !recombination_rate.is_finite() || recombination_rate < 0.0 {
-            return Err(ArgError::BadRate(recombination_rate));
-        }
-        Ok(ArgConfig { sites, recombination_rate })
-    }
-
-    /// Number of sites L.
-    pub fn sites(&self) -> u64 {
-        self.sites
-    }
-
-    /// Crossovers per gap per reproduction event, r.
-    pub fn recombination_rate(&self) -> f64 {
-        self.recombination_rate
-    }
-}
 
 /// The ancestry of a sample along a sequence: its local trees and recombination counts.
 #[derive(Debug, Clone)]
@@ -126,6 +70,7 @@ pub struct Arg {
     trees: Vec<LocalTree>,
     recombination_events: u64,
     tree_crossovers: u64,
+    breakpoints: usize,
     splits: Vec<(u64, u32)>,
     steps: u64,
     n_nodes: usize,
@@ -144,6 +89,7 @@ impl Arg {
 
     /// The local trees, left to right; they tile `[0, L)`. Adjacent trees always differ
     /// (in topology, node times or jumps on some edge): equal neighbours are one interval.
+    /// Only changes of topology or node times are [`Arg::breakpoints`].
     pub fn trees(&self) -> &[LocalTree] {
         &self.trees
     }
@@ -155,11 +101,23 @@ impl Arg {
         &self.trees[i]
     }
 
-    /// Recombination breakpoints: distinct positions where the local tree changes
-    /// (`trees().len() - 1`). Crossovers whose two sides end up in equal trees are invisible
-    /// and not counted here.
+    /// Recombination breakpoints: the positions where the genealogy a user can see (topology
+    /// or node times) changes between adjacent sites. Adjacent local trees that differ only
+    /// in the jumps of some edge (the same genealogy through other dormant periods) are not
+    /// a breakpoint, nor are crossovers whose two sides end up in equal trees; so
+    /// `breakpoints() <= trees().len() - 1`, equal without dormancy.
+    ///
+    /// In the coalescent limit without dormancy, with rho = 2 N r (L - 1), every crossover on
+    /// the marginal trees (about rho a_n, [`Arg::tree_crossovers`]) changes the tree unless its
+    /// detached lineage re-joins the branch it left (the SMC' picture of Marjoram & Wall 2006):
+    /// ```text
+    /// E[breakpoints] = rho (a_n - 2 (n - 1) / (3 n))       (n = 2: 2 rho / 3)
+    /// ```
+    /// With dormancy of finite mean the limit is the same with rho_eff = rho E[R] / d (d the
+    /// gcd of the support of R): crossovers happen only at reproduction events, which a
+    /// lineage makes at rate 1/E[R] per generation, while time runs E[R]² / d slower (KKL).
     pub fn breakpoints(&self) -> usize {
-        self.trees.len() - 1
+        self.breakpoints
     }
 
     /// Crossover events in the ancestry: reproduction events whose ancestral material was
@@ -230,8 +188,8 @@ struct Seg {
     count: u32,
 }
 
-/// A lineage waiting at (time, deme). Orders as the engine's entries: key, then node.
-#[derive(Debug, Clone, Copy, PartialEq, Eq, PartialOrd, Ord)]
+/// A lineage waiting at (time, deme).
+#[derive(Debug, Clone, Copy, PartialEq, Eq)]
 struct Entry {
     /// time * n_demes + deme.
     key: u64,
@@ -241,6 +199,13 @@ struct Entry {
     id: u32,
     /// A sampled individual (an occupied seat of its generation).
     sample: bool,
+}
+
+impl Keyed for Entry {
+    #[inline(always)]
+    fn key(&self) -> u64 {
+        self.key
+    }
 }
 
 /// A piece of a local tree: an edge over the sites [left, right).
@@ -264,7 +229,7 @@ pub(crate) struct RootRec {
 /// Simulates ancestral recombination graphs; owns scratch buffers reused across replicates.
 #[derive(Debug, Default)]
 pub struct ArgSimulator {
-    heap: BinaryHeap<Reverse<Entry>>,
+    queue: Queue<Entry>,
     slab: Vec<Vec<Seg>>,
     free: Vec<u32>,
     group: Vec<Entry>,
@@ -311,7 +276,7 @@ impl ArgSimulator {
             self.slab[id as usize].push(full(i));
             match s.kind {
                 SampleKind::Population => {
-                    self.heap.push(Reverse(Entry { key: model.key(s.time, s.deme), node: i as u32, id, sample: true }))
+                    self.queue.push(Entry { key: model.key(s.time, s.deme), node: i as u32, id, sample: true })
                 }
                 SampleKind::Seedbank => {
                     // The seed was made a + 1 generations before sampling, as in the engine.
@@ -324,28 +289,30 @@ impl ArgSimulator {
         // shared sites with any lineage they could meet) stop at once instead of walking to
         // the horizon; checked at the start, after groups and when a migration epoch ends.
         let mut check_at = if model.reach { 0 } else { u64::MAX };
-        while let Some(Reverse(top)) = self.heap.pop() {
-            if self.heap.is_empty() {
+        while let Some(&top) = self.queue.peek() {
+            if self.queue.len() == 1 {
                 // Nothing left to meet: the material can never coalesce again.
+                self.queue.pop();
                 self.stop(top.id);
                 break;
             }
             let (time, deme) = model.split(top.key);
             if time >= check_at {
-                if self.all_apart(&model, &top) {
-                    self.stop(top.id);
-                    while let Some(Reverse(e)) = self.heap.pop() {
-                        self.stop(e.id);
+                if self.all_apart(&model) {
+                    let ids: Vec<u32> = self.queue.drain().map(|e| e.id).collect();
+                    for id in ids {
+                        self.stop(id);
                     }
                     break;
                 }
                 check_at = model.scenario.migration().next_epoch_start(time);
             }
-            if !top.sample && self.heap.peek().is_none_or(|Reverse(e)| e.key != top.key) {
+            if !top.sample && !self.queue.top_key_shared() {
+                self.queue.pop();
                 self.step(&model, top.id, time, deme, rng);
                 continue;
             }
-            crate::engine::pop_group(&mut self.heap, top, |e| e.key, &mut self.group);
+            self.queue.pop_group(&mut self.group);
             self.seat_group(&model, n as u32, time, deme, rng);
             if model.reach {
                 check_at = 0;
@@ -359,13 +326,14 @@ impl ArgSimulator {
                 _ => splits.push((g, 1)),
             }
         }
-        let trees = trees::build(n, model.sites, &self.nodes, &mut self.edges, &mut self.roots);
+        let (trees, breakpoints) = trees::build(n, model.sites, &self.nodes, &mut self.edges, &mut self.roots);
         Arg {
             sites: model.sites,
             n_samples: n,
             trees,
             recombination_events: self.recombination_events,
             tree_crossovers: self.tree_crossovers,
+            breakpoints,
             splits,
             steps: self.steps,
             n_nodes: self.nodes.len(),
@@ -373,7 +341,7 @@ impl ArgSimulator {
     }
 
     fn reset(&mut self) {
-        self.heap.clear();
+        self.queue.clear();
         for s in &mut self.slab {
             s.clear();
         }
@@ -402,16 +370,16 @@ impl ArgSimulator {
         self.free.push(id);
     }
 
-    /// Whether no two queued lineages (and `top`) that may meet share a site: then no site
+    /// Whether no two queued lineages that may meet share a site: then no site
     /// can coalesce again (a merged lineage's sites are the union of its parts', and it can
     /// only go where each part could). Only asked with few lineages left.
-    fn all_apart(&self, model: &Model, top: &Entry) -> bool {
+    fn all_apart(&self, model: &Model) -> bool {
         const MAX_CHECKED: usize = 64;
-        if self.heap.len() >= MAX_CHECKED {
+        if self.queue.len() > MAX_CHECKED {
             return false;
         }
         let migration = model.scenario.migration();
-        let live: Vec<&Entry> = std::iter::once(top).chain(self.heap.iter().map(|Reverse(e)| e)).collect();
+        let live: Vec<&Entry> = self.queue.iter().collect();
         let overlap = |a: u32, b: u32| {
             self.slab[a as usize]
                 .iter()
@@ -442,7 +410,7 @@ impl ArgSimulator {
     fn seat_group<R: Rng + ?Sized>(&mut self, model: &Model, n: u32, time: u64, deme: usize, rng: &mut R) {
         let size = model.size(deme, time);
         self.group.sort_unstable_by_key(|e| (!e.sample, e.node, e.id));
-        crate::engine::seat_lineages(self.group.iter().map(|e| e.sample), size, &mut self.seat, &mut self.order, rng);
+        super::exact::seat_lineages(self.group.iter().map(|e| e.sample), size, &mut self.seat, &mut self.order, rng);
         let mut i = 0;
         while i < self.order.len() {
             let s = self.seat[self.order[i] as usize];
@@ -592,7 +560,7 @@ impl ArgSimulator {
                 s.jumps += 1;
             }
             let node = segs[0].node;
-            self.heap.push(Reverse(Entry { key: model.key(to_time, to), node, id: part, sample: false }));
+            self.queue.push(Entry { key: model.key(to_time, to), node, id: part, sample: false });
         }
     }
 
@@ -726,8 +694,8 @@ impl<'a> Model<'a> {
             n_demes: demes.len() as u64,
             horizon: scenario.horizon(),
             migrates: scenario.migration().is_active(),
-            sites: config.sites,
-            rate: config.recombination_rate,
+            sites: config.sites(),
+            rate: config.recombination_rate(),
             reach: demes.len() > 1 && scenario.migration().has_reachability(),
         }
     }

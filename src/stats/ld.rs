@@ -102,3 +102,39 @@ pub fn ld_decay(positions: &[u64], haplotypes: &[Vec<u8>], bins: &[u64]) -> Vec<
         })
         .collect()
 }
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+
+    #[test]
+    fn r_squared_by_hand() {
+        // a = 1110, b = 1100: p_A = 3/4, p_B = 1/2, p_AB = 1/2, D = 1/2 - 3/8 = 1/8,
+        // r² = (1/64) / (3/4 · 1/4 · 1/2 · 1/2) = (1/64) / (3/64) = 1/3.
+        let r2 = r_squared(&[1, 1, 1, 0], &[1, 1, 0, 0]).unwrap();
+        assert!((r2 - 1.0 / 3.0).abs() < 1e-15, "{r2}");
+        assert_eq!(r_squared(&[1, 1, 0, 0], &[1, 1, 0, 0]), Some(1.0));
+        assert_eq!(r_squared(&[1, 1, 0, 0], &[0, 0, 1, 1]), Some(1.0));
+        assert_eq!(r_squared(&[1, 0, 1, 0], &[1, 1, 0, 0]), Some(0.0));
+        assert_eq!(r_squared(&[1, 1, 1, 1], &[1, 1, 0, 0]), None);
+    }
+
+    #[test]
+    fn ld_decay_by_hand() {
+        // Sites at 0, 10, 25 (columns) in 4 haplotypes (rows):
+        //   s0 = 1100, s1 = 1100, s2 = 1010, s3 = 1111 (monomorphic, skipped).
+        // Pairs: (s0,s1) at 10: r² = 1; (s0,s2) at 25 and (s1,s2) at 15: D = 1/4 - 1/4 = 0.
+        let pos = [0, 10, 25, 12];
+        let h = vec![vec![1, 1, 1, 1], vec![1, 1, 0, 1], vec![0, 0, 1, 1], vec![0, 0, 0, 1]];
+        let bins = ld_decay(&pos, &h, &[0, 11, 30, 100]);
+        assert_eq!(bins.len(), 3);
+        assert_eq!((bins[0].lo, bins[0].hi, bins[0].mean_r2, bins[0].pairs), (0, 11, 1.0, 1));
+        assert_eq!((bins[1].mean_r2, bins[1].pairs), (0.0, 2));
+        assert!(bins[2].mean_r2.is_nan() && bins[2].pairs == 0);
+        // More than 64 haplotypes: the bit sets span several words. 70 copies of each row scale
+        // no frequency, so r² is unchanged.
+        let big: Vec<Vec<u8>> = h.iter().flat_map(|r| std::iter::repeat_n(r.clone(), 70)).collect();
+        let b = ld_decay(&pos, &big, &[0, 11, 30, 100]);
+        assert_eq!((b[0].mean_r2, b[0].pairs, b[1].mean_r2, b[1].pairs, b[2].pairs), (1.0, 1, 0.0, 2, 0));
+    }
+}
