@@ -89,9 +89,13 @@ pub enum EngineChoice {
     Exact,
     /// The approximate engine; an error when the scenario is outside its domain.
     Approx,
-    /// The approximate engine where a limit applies (see [`choose`]), else the exact one.
+    /// The approximate engine where a limit applies (see [`choose`]), else the exact one;
+    /// with recombination also the hybrid where only the recent past is outside the limit.
     #[default]
     Auto,
+    /// Exact for the recent generations, approximate after a switch time
+    /// ([`crate::engine::hybrid`]); an error when the distant past is outside the limit.
+    Hybrid,
 }
 
 impl FromStr for EngineChoice {
@@ -101,6 +105,7 @@ impl FromStr for EngineChoice {
             "exact" => Ok(EngineChoice::Exact),
             "approx" => Ok(EngineChoice::Approx),
             "auto" => Ok(EngineChoice::Auto),
+            "hybrid" => Ok(EngineChoice::Hybrid),
             other => Err(ApproxError::UnknownEngine(other.to_string())),
         }
     }
@@ -112,6 +117,7 @@ impl fmt::Display for EngineChoice {
             EngineChoice::Exact => "exact",
             EngineChoice::Approx => "approx",
             EngineChoice::Auto => "auto",
+            EngineChoice::Hybrid => "hybrid",
         })
     }
 }
@@ -124,6 +130,8 @@ pub enum EngineKind {
     Exact,
     /// [`ApproxModel`].
     Approx,
+    /// [`crate::engine::hybrid`]: exact up to the switch time, then [`ApproxModel`].
+    Hybrid,
 }
 
 /// The engine that runs and why (written into `summary.json`).
@@ -133,6 +141,9 @@ pub struct EngineDecision {
     pub kind: EngineKind,
     /// Why, in words.
     pub reason: String,
+    /// The hybrid's switch time in generations ([`crate::engine::hybrid::plan`]).
+    #[serde(skip_serializing_if = "Option::is_none")]
+    pub switch: Option<u64>,
 }
 
 /// Why the approximate engine cannot run a scenario.
@@ -148,7 +159,7 @@ pub enum ApproxError {
         reason: String,
     },
     /// An engine name other than exact, approx or auto.
-    #[error("unknown engine `{0}`: use exact, approx or auto")]
+    #[error("unknown engine `{0}`: use exact, approx, auto or hybrid")]
     UnknownEngine(String),
 }
 
@@ -215,7 +226,7 @@ impl DemeModel {
     }
 
     /// Links (parent–offspring steps) per generation of an active lineage.
-    fn link_rate(&self) -> f64 {
+    pub(crate) fn link_rate(&self) -> f64 {
         match self {
             DemeModel::Kingman { mean, .. } => 1.0 / mean,
             DemeModel::SeedBank { .. } => 1.0,
@@ -223,7 +234,7 @@ impl DemeModel {
     }
 
     /// Time-scale factor s in the pair coalescence rate 1/(s N).
-    fn coal_scale(&self) -> f64 {
+    pub(crate) fn coal_scale(&self) -> f64 {
         match self {
             DemeModel::Kingman { scale, .. } => *scale,
             DemeModel::SeedBank { .. } => 1.0,
@@ -272,7 +283,7 @@ pub fn lookback_scale(law: &Dormancy) -> f64 {
 /// ```text
 /// ∫_0^τ du / (s N0 e^{-g u}) = 3   ⇒   N(τ) = N0 / (1 + 3 g s N0)
 /// ```
-fn min_size(epochs: &[SizeEpoch], s: f64) -> f64 {
+pub(crate) fn min_size(epochs: &[SizeEpoch], s: f64) -> f64 {
     let mut min = f64::INFINITY;
     for (i, e) in epochs.iter().enumerate() {
         min = min.min(e.size);
@@ -328,9 +339,6 @@ fn deme_models(scenario: &Scenario) -> Result<Vec<DemeModel>, ApproxError> {
 /// Otherwise the exact engine: since_founding, infinite mean, a periodic law with migration
 /// or mixed residues, small N, dormancy comparable to N.
 pub fn choose(scenario: &Scenario) -> (EngineKind, String) {
-    if scenario.recombination().is_some() {
-        return (EngineKind::Exact, "exact engine: only it models recombination within a locus".to_string());
-    }
     let models = match deme_models(scenario) {
         Ok(m) => m,
         Err(e) => return (EngineKind::Exact, format!("exact engine: no limit applies: {e}")),
@@ -370,7 +378,14 @@ pub fn choose(scenario: &Scenario) -> (EngineKind, String) {
             }
         }
     }
-    let mig = if scenario.migration().is_active() { "; structured coalescent for migration" } else { "" };
+    let mut mig = if scenario.migration().is_active() { "; structured coalescent for migration" } else { "" };
+    if scenario.recombination().is_some() {
+        mig = if mig.is_empty() {
+            "; continuous-time ARG for recombination"
+        } else {
+            "; structured coalescent for migration; continuous-time ARG for recombination"
+        };
+    }
     (
         EngineKind::Approx,
         format!(
@@ -381,32 +396,40 @@ pub fn choose(scenario: &Scenario) -> (EngineKind, String) {
 }
 
 /// Resolves a user's choice: `exact` always runs; `approx` runs when every deme has a limit
-/// model (an error otherwise; the reason notes when `auto` would pick exact); `auto` is
-/// [`choose`].
+/// model (an error otherwise; the reason notes when `auto` would pick exact); `hybrid` runs
+/// when the limit holds after some switch time ([`crate::engine::hybrid::plan`]); `auto` is
+/// [`choose`], and for a recombining locus the hybrid where [`choose`] finds the recent past
+/// outside the limit or the sample too large ([`crate::engine::hybrid::auto_with_recombination`]).
 pub fn resolve(choice: EngineChoice, scenario: &Scenario) -> Result<EngineDecision, ApproxError> {
     Ok(match choice {
         EngineChoice::Exact => {
-            EngineDecision { kind: EngineKind::Exact, reason: "exact engine (requested)".to_string() }
+            EngineDecision { kind: EngineKind::Exact, reason: "exact engine (requested)".to_string(), switch: None }
+        }
+        EngineChoice::Hybrid => {
+            let plan = crate::engine::hybrid::plan(scenario)?;
+            EngineDecision {
+                kind: EngineKind::Hybrid,
+                reason: format!("{} (requested)", plan.reason),
+                switch: Some(plan.switch),
+            }
         }
         EngineChoice::Approx => {
-            if scenario.recombination().is_some() {
-                return Err(ApproxError::OutOfDomain {
-                    deme: "all".to_string(),
-                    reason: "the approximate engine has no recombination: use --engine exact or auto".to_string(),
-                });
-            }
             deme_models(scenario)?;
             let reason = match choose(scenario) {
                 (EngineKind::Approx, why) => format!("{why} (requested)"),
-                (EngineKind::Exact, why) => {
+                (_, why) => {
                     format!("approximate engine (requested) outside its accuracy range; auto would pick {why}")
                 }
             };
-            EngineDecision { kind: EngineKind::Approx, reason }
+            EngineDecision { kind: EngineKind::Approx, reason, switch: None }
         }
         EngineChoice::Auto => {
             let (kind, reason) = choose(scenario);
-            EngineDecision { kind, reason }
+            if scenario.recombination().is_some() {
+                crate::engine::hybrid::auto_with_recombination(scenario, kind, reason)
+            } else {
+                EngineDecision { kind, reason, switch: None }
+            }
         }
     })
 }
@@ -420,33 +443,35 @@ pub fn simulate_approx<R: Rng + ?Sized>(scenario: &Scenario, rng: &mut R) -> Res
 
 /// An Exp(1) draw.
 #[inline(always)]
-fn exp1<R: Rng + ?Sized>(rng: &mut R) -> f64 {
+pub(crate) fn exp1<R: Rng + ?Sized>(rng: &mut R) -> f64 {
     Distribution::<f64>::sample(&Exp1, rng)
 }
 
 /// A migration epoch as per-generation rates of active lineages.
 #[derive(Debug, Clone)]
-struct MigEpoch {
-    end: f64,
+pub(crate) struct MigEpoch {
+    pub(crate) end: f64,
     /// out[d] = total rate (per generation) of leaving deme d for an active lineage.
-    out: Vec<f64>,
+    pub(crate) out: Vec<f64>,
     /// rows[d] = cumulative off-diagonal rates with their target demes.
-    rows: Vec<Vec<(f64, usize)>>,
+    pub(crate) rows: Vec<Vec<(f64, usize)>>,
 }
 
 /// The approximate engine for one scenario, built once and reused across replicates.
 #[derive(Debug, Clone)]
 pub struct ApproxModel<'a> {
-    scenario: &'a Scenario,
+    pub(crate) scenario: &'a Scenario,
     demes: Vec<DemeModel>,
     sizes: Vec<&'a [SizeEpoch]>,
     /// Constant size per deme when it never changes (fast path).
     constant: Vec<Option<f64>>,
-    mig: Vec<MigEpoch>,
-    migrates: bool,
-    horizon: f64,
+    pub(crate) mig: Vec<MigEpoch>,
+    pub(crate) migrates: bool,
+    pub(crate) horizon: f64,
     /// The plain Kingman fast path, when it applies.
     plain: Option<Plain>,
+    /// The hybrid's switch time ([`ApproxModel::with_switch`]).
+    switch: Option<u64>,
 }
 
 /// Constants of the plain Kingman fast path (one constant-size Kingman deme, every sample
@@ -566,7 +591,20 @@ impl<'a> ApproxModel<'a> {
             mig,
             migrates: scenario.migration().is_active(),
             horizon: scenario.horizon() as f64,
+            switch: None,
         })
+    }
+
+    /// The model run as the hybrid engine ([`crate::engine::hybrid`]): exact up to generation
+    /// `switch`, this model after.
+    pub fn with_switch(mut self, switch: u64) -> Self {
+        self.switch = Some(switch);
+        self
+    }
+
+    /// The hybrid's switch time, when the model runs as the hybrid engine.
+    pub fn switch_time(&self) -> Option<u64> {
+        self.switch
     }
 
     /// The limit model of each deme.
@@ -582,7 +620,7 @@ impl<'a> ApproxModel<'a> {
     /// N(u) = N(t) e^{-g (u - t)}:   H(Δ) = rate (e^{g Δ} - 1) / (g N(t)),   Δ = ln(1 + e g N(t) / rate) / g
     /// ```
     /// (g < 0 can leave the hazard bounded: then the next epoch, or never.)
-    fn coal_time(&self, deme: usize, t: f64, rate: f64, mut e: f64) -> f64 {
+    pub(crate) fn coal_time(&self, deme: usize, t: f64, rate: f64, mut e: f64) -> f64 {
         if let Some(n) = self.constant[deme] {
             return t + e * n / rate;
         }
@@ -628,12 +666,12 @@ impl<'a> ApproxModel<'a> {
         l.since = t;
     }
 
-    fn mig_index(&self, t: f64) -> usize {
+    pub(crate) fn mig_index(&self, t: f64) -> usize {
         if self.mig.len() == 1 { 0 } else { self.mig.partition_point(|e| e.end <= t).min(self.mig.len() - 1) }
     }
 
     /// The deme a lineage of deme `d` lands in for one link at time t (full row of M).
-    fn link_deme<R: Rng + ?Sized>(&self, d: usize, t: f64, rng: &mut R) -> usize {
+    pub(crate) fn link_deme<R: Rng + ?Sized>(&self, d: usize, t: f64, rng: &mut R) -> usize {
         if self.migrates { self.scenario.migration().parent_deme(d, t as u64, rng) } else { d }
     }
 

@@ -245,8 +245,8 @@ pub fn ld_bins(sites: u64) -> Vec<u64> {
 /// [`locus_rng`]. Loci run in parallel when there are several.
 ///
 /// `approx`: the continuous-time approximate engine to use instead of the exact one (see
-/// [`crate::approx`]), or `None` for the exact engine; it has no recombination, so it is
-/// only used without it.
+/// [`crate::approx`]; with recombination [`crate::engine::approx_arg`]), run as the hybrid
+/// when it carries a switch time ([`crate::engine::hybrid`]), or `None` for the exact engine.
 pub fn simulate_replicate(
     sim: &mut Simulator,
     scenario: &Scenario,
@@ -266,6 +266,13 @@ pub fn simulate_replicate(
             format!("replicate {replicate}")
         };
         let (mut out, mutations) = match scenario.recombination() {
+            Some(config) if approx.is_some() => {
+                // The approximate ARG (or the hybrid): local trees streamed from its records.
+                let model = approx.expect("checked above");
+                let records = crate::engine::hybrid::simulate_locus(model, config, &mut rng);
+                let text = keep.trees.then_some((labels, tag.as_str(), &mut newick));
+                records.locus(scenario.mutation(), &demes, text, &mut rng)?
+            }
             Some(config) => {
                 let arg = ArgSimulator::new().simulate(scenario, config, &mut rng);
                 let mutations = match scenario.mutation() {
@@ -279,7 +286,10 @@ pub fn simulate_replicate(
             }
             None => {
                 let g = match approx {
-                    Some(model) => model.simulate(&mut rng),
+                    Some(model) => match model.switch_time() {
+                        Some(t) => crate::engine::hybrid::HybridSimulator::new().genealogy(model, t, &mut rng),
+                        None => model.simulate(&mut rng),
+                    },
                     None => sim.simulate(scenario, &mut rng),
                 };
                 let mutations = match scenario.mutation() {

@@ -418,5 +418,8 @@ pub fn simulate<R: Rng + ?Sized>(scenario: &Scenario, rng: &mut R) -> Genealogy 
     Simulator::new().simulate(scenario, rng)
 }
 
+pub mod approx_arg;
+pub mod hybrid;
+
 #[cfg(test)]
 mod tests;

@@ -385,6 +385,9 @@ pub fn simulate_to_dir(
     let engine = crate::approx::resolve(options.engine, scenario)?;
     let approx = match engine.kind {
         crate::approx::EngineKind::Approx => Some(crate::approx::ApproxModel::new(scenario)?),
+        crate::approx::EngineKind::Hybrid => {
+            Some(crate::approx::ApproxModel::new(scenario)?.with_switch(engine.switch.unwrap_or(0)))
+        }
         crate::approx::EngineKind::Exact => None,
     };
     fs::create_dir_all(dir).with_context(|| format!("creating output directory {}", dir.display()))?;

@@ -19,6 +19,11 @@ pub struct LocalTree {
 }
 
 impl LocalTree {
+    /// The tree of the sites [left, right) (other engines build their local trees with it).
+    pub(crate) fn new(left: u64, right: u64, genealogy: Genealogy) -> Self {
+        LocalTree { left, right, genealogy }
+    }
+
     /// First site of the interval.
     pub fn left(&self) -> u64 {
         self.left
