@@ -65,9 +65,10 @@ fn target() {
         records.for_each_tree(|_, _| trees += 1);
         let t_sweep = t1.elapsed().as_secs_f64();
         let t2 = Instant::now();
-        let out = batch::simulate_replicate(&mut Simulator::new(), &s, &key, rep, Keep::default(), &labels, Some(&model))
-            .unwrap()
-            .remove(0);
+        let out =
+            batch::simulate_replicate(&mut Simulator::new(), &s, &key, rep, Keep::default(), &labels, Some(&model))
+                .unwrap()
+                .remove(0);
         let t_total = t2.elapsed().as_secs_f64();
         let seg = out.stats.as_ref().map_or(0, |x| x.segregating_sites);
         println!(
@@ -84,7 +85,9 @@ fn target() {
 
 fn rho() {
     // One deme, N = 10^4, n = 20, geometric mean 2 (E[R] = 2): rho = 2 N r (L - 1) E[R].
-    let s = scenario("demes: [{name: a, size: 10000, dormancy: {law: geometric, mean: 2}}]\nsamples: [{deme: a, count: 20}]\n");
+    let s = scenario(
+        "demes: [{name: a, size: 10000, dormancy: {law: geometric, mean: 2}}]\nsamples: [{deme: a, count: 20}]\n",
+    );
     let model = ApproxModel::new(&s).unwrap();
     let sites = 1_000_001u64;
     let key = master_key(5);

@@ -75,6 +75,7 @@
 
 mod fenwick;
 mod records;
+mod smc;
 
 pub use records::{ArgRecords, visible_breakpoints};
 
@@ -186,9 +187,48 @@ struct Piece {
     b: Option<u32>,
 }
 
+/// The limit process of the approximate recombination engine.
+#[derive(Debug, Clone, Copy, PartialEq, Eq, serde::Serialize)]
+#[serde(rename_all = "snake_case")]
+pub enum ArgModel {
+    /// Hudson's ancestral recombination graph, the limit itself; O(rho²) events.
+    Hudson,
+    /// SMC' along the sequence ([`smc`](self) module docs): O(rho) events, distant sites
+    /// approximated.
+    SmcPrime,
+}
+
+/// Scaled rho above which [`arg_model`] picks SMC': there Hudson's O(rho²) events cost more
+/// than about 0.05 s per replicate (`cargo bench --bench approx_arg -- rho`).
+pub const SMC_RHO: f64 = 1000.0;
+
+/// The population-scaled recombination rate of the locus on the limit's clock, the largest
+/// over demes (present sizes):
+/// ```text
+/// rho = 2 N (E[R]²/d) (λ r) (L - 1),   λ = 1/E[R] (Kingman deme), 1 - σ (seed-bank deme)
+/// ```
+/// which is 2 N r (L - 1) E\[R]/d in a Kingman deme (module docs).
+pub fn scaled_rho(model: &ApproxModel, config: &ArgConfig) -> f64 {
+    let c = Consts::new(model, config, 0);
+    let gaps = config.sites().saturating_sub(1) as f64;
+    model
+        .scenario
+        .demes()
+        .iter()
+        .enumerate()
+        .map(|(d, deme)| 2.0 * deme.size().epochs()[0].size * c.scale[d] * c.lambda[d] * c.rate * gaps)
+        .fold(0.0, f64::max)
+}
+
+/// Hudson's ARG up to [`SMC_RHO`], SMC' above.
+pub fn arg_model(model: &ApproxModel, config: &ArgConfig) -> ArgModel {
+    if scaled_rho(model, config) > SMC_RHO { ArgModel::SmcPrime } else { ArgModel::Hudson }
+}
+
 /// Simulates approximate ARGs; owns scratch buffers reused across replicates.
 #[derive(Debug, Default)]
 pub struct ApproxArgSimulator {
+    smc: smc::SmcSimulator,
     lins: Vec<Lineage>,
     free: Vec<u32>,
     active: Vec<Vec<u32>>,
@@ -214,9 +254,24 @@ impl ApproxArgSimulator {
         ApproxArgSimulator::default()
     }
 
-    /// Simulates the ancestry of the model's sample along `config.sites()` sites, drawing only
-    /// from `rng`.
+    /// Simulates the ancestry of the model's sample along `config.sites()` sites with the
+    /// process [`arg_model`] picks, drawing only from `rng`.
     pub fn simulate<R: Rng + ?Sized>(&mut self, model: &ApproxModel, config: &ArgConfig, rng: &mut R) -> ArgRecords {
+        self.simulate_with(model, config, arg_model(model, config), rng)
+    }
+
+    /// Simulates with the given limit process.
+    pub fn simulate_with<R: Rng + ?Sized>(
+        &mut self,
+        model: &ApproxModel,
+        config: &ArgConfig,
+        process: ArgModel,
+        rng: &mut R,
+    ) -> ArgRecords {
+        if process == ArgModel::SmcPrime {
+            let pending = sample_entries(model, config.sites(), None, rng);
+            return self.smc.simulate(model, config, pending, rng);
+        }
         let samples = model.scenario.samples();
         let nodes =
             samples.iter().enumerate().map(|(i, s)| Node { time: s.time, deme: s.deme, sample: Some(i as u32) });

@@ -36,12 +36,12 @@ fn streamed_trees_are_the_exact_engines_cut_of_the_records() {
     // the neighbours that differ in topology or branch lengths.
     let key = master_key(4);
     let mut sim = ApproxArgSimulator::new();
-    for yaml in CASES {
+    for (yaml, process) in CASES.iter().flat_map(|y| [(y, ArgModel::Hudson), (y, ArgModel::SmcPrime)]) {
         let s = scenario(yaml);
         let model = ApproxModel::new(&s).unwrap();
         let config = ArgConfig::new(20_000, 2e-8).unwrap();
         for rep in 0..8 {
-            let records = sim.simulate(&model, &config, &mut replicate_rng(&key, rep));
+            let records = sim.simulate_with(&model, &config, process, &mut replicate_rng(&key, rep));
             let mut streamed = Vec::new();
             let mut visible = 0;
             records.for_each_tree(|t, v| {
@@ -62,14 +62,14 @@ fn streamed_trees_are_the_exact_engines_cut_of_the_records() {
 fn local_trees_tile_the_sequence_and_every_tree_is_a_tree() {
     let key = master_key(5);
     let mut sim = ApproxArgSimulator::new();
-    let mut recombined = 0;
-    for yaml in CASES {
+    let mut recombined = [0, 0];
+    for (yaml, process) in CASES.iter().flat_map(|y| [(y, ArgModel::Hudson), (y, ArgModel::SmcPrime)]) {
         let s = scenario(yaml);
         let model = ApproxModel::new(&s).unwrap();
         let n = s.samples().len();
         let config = ArgConfig::new(5000, 1e-7).unwrap();
         for rep in 0..5 {
-            let arg = sim.simulate(&model, &config, &mut replicate_rng(&key, rep)).into_arg();
+            let arg = sim.simulate_with(&model, &config, process, &mut replicate_rng(&key, rep)).into_arg();
             assert_eq!(arg.trees()[0].left(), 0);
             assert_eq!(arg.trees().last().unwrap().right(), 5000);
             for w in arg.trees().windows(2) {
@@ -88,19 +88,21 @@ fn local_trees_tile_the_sequence_and_every_tree_is_a_tree() {
             }
             assert!(arg.breakpoints() as u64 <= arg.splits().iter().map(|&(_, c)| c as u64).sum::<u64>());
             assert!(visible_breakpoints(arg.trees()) as u64 <= arg.tree_crossovers());
-            recombined += arg.breakpoints();
+            recombined[usize::from(process == ArgModel::SmcPrime)] += arg.breakpoints();
         }
     }
-    assert!(recombined > 50, "{recombined} breakpoints");
+    assert!(recombined.iter().all(|&b| b > 50), "{recombined:?} breakpoints");
 }
 
 #[test]
 fn without_recombination_there_is_one_tree() {
     let s = scenario(CASES[0]);
     let model = ApproxModel::new(&s).unwrap();
-    for config in [ArgConfig::new(1, 0.0).unwrap(), ArgConfig::new(1000, 0.0).unwrap(), ArgConfig::new(1, 0.5).unwrap()]
-    {
-        let r = ApproxArgSimulator::new().simulate(&model, &config, &mut replicate_rng(&master_key(1), 0));
+    let configs =
+        [ArgConfig::new(1, 0.0).unwrap(), ArgConfig::new(1000, 0.0).unwrap(), ArgConfig::new(1, 0.5).unwrap()];
+    for (config, process) in configs.into_iter().flat_map(|c| [(c, ArgModel::Hudson), (c, ArgModel::SmcPrime)]) {
+        let r =
+            ApproxArgSimulator::new().simulate_with(&model, &config, process, &mut replicate_rng(&master_key(1), 0));
         assert_eq!((r.breakpoints(), r.recombination_events(), r.tree_crossovers()), (0, 0, 0));
         let arg = r.into_arg();
         assert_eq!(arg.trees().len(), 1);
@@ -115,14 +117,16 @@ fn deterministic_given_the_stream_and_reusable() {
     let config = ArgConfig::new(10_000, 1e-7).unwrap();
     let key = master_key(9);
     let mut sim = ApproxArgSimulator::new();
-    let shapes = |sim: &mut ApproxArgSimulator, rep| {
-        let arg = sim.simulate(&model, &config, &mut replicate_rng(&key, rep)).into_arg();
-        arg.trees().iter().map(|t| newick(t.genealogy())).collect::<Vec<_>>()
-    };
-    let a = shapes(&mut sim, 3);
-    let _ = shapes(&mut sim, 4);
-    assert_eq!(a, shapes(&mut sim, 3));
-    assert_eq!(a, shapes(&mut ApproxArgSimulator::new(), 3));
+    for process in [ArgModel::Hudson, ArgModel::SmcPrime] {
+        let shapes = |sim: &mut ApproxArgSimulator, rep| {
+            let arg = sim.simulate_with(&model, &config, process, &mut replicate_rng(&key, rep)).into_arg();
+            arg.trees().iter().map(|t| newick(t.genealogy())).collect::<Vec<_>>()
+        };
+        let a = shapes(&mut sim, 3);
+        let _ = shapes(&mut sim, 4);
+        assert_eq!(a, shapes(&mut sim, 3));
+        assert_eq!(a, shapes(&mut ApproxArgSimulator::new(), 3));
+    }
 }
 
 #[test]
@@ -130,9 +134,13 @@ fn horizon_leaves_a_forest_on_every_tree() {
     let s = scenario("horizon: 50\ndemes: [{name: a, size: 100000}]\nsamples: [{deme: a, count: 4}]\n");
     let model = ApproxModel::new(&s).unwrap();
     let config = ArgConfig::new(100, 1e-3).unwrap();
-    let arg = ApproxArgSimulator::new().simulate(&model, &config, &mut replicate_rng(&master_key(1), 0)).into_arg();
-    // E[first merge] = N/6 ~ 16667 generations > 50: almost surely no merge at any site.
-    assert!(arg.trees().iter().all(|t| t.genealogy().roots().len() == 4));
+    for process in [ArgModel::Hudson, ArgModel::SmcPrime] {
+        let arg = ApproxArgSimulator::new()
+            .simulate_with(&model, &config, process, &mut replicate_rng(&master_key(1), 0))
+            .into_arg();
+        // E[first merge] = N/6 ~ 16667 generations > 50: almost surely no merge at any site.
+        assert!(arg.trees().iter().all(|t| t.genealogy().roots().len() == 4));
+    }
 }
 
 #[test]
