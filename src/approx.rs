@@ -421,6 +421,7 @@ pub fn resolve(choice: EngineChoice, scenario: &Scenario) -> Result<EngineDecisi
                     format!("approximate engine (requested) outside its accuracy range; auto would pick {why}")
                 }
             };
+            let reason = format!("{reason}{}", crate::engine::approx_arg::describe(scenario));
             EngineDecision { kind: EngineKind::Approx, reason, switch: None }
         }
         EngineChoice::Auto => {

@@ -47,7 +47,8 @@ enum Command {
         /// Also write loci.tsv with one row per locus
         #[arg(long)]
         loci_table: bool,
-        /// Engine: exact, approx (continuous-time limit; refused outside its domain) or auto
+        /// Engine: exact, approx (continuous-time limit; refused outside its domain), hybrid
+        /// (exact for the recent generations, then approx) or auto
         #[arg(long, default_value = "auto")]
         engine: seedline::approx::EngineChoice,
     },

@@ -111,7 +111,7 @@ pub fn plan(scenario: &Scenario) -> Result<SwitchPlan, ApproxError> {
             .to_string()
     } else {
         format!(
-            "hybrid engine: exact up to generation {switch} ({}), then the approximate engine (multiple mergers below {:.0}% per event)",
+            "hybrid engine: exact up to generation {switch} ({}), then the approximate engine (multiple mergers below {:.0}% per event; Hudson's ARG with recombination)",
             why.join("; "),
             100.0 * MERGER_TOLERANCE
         )
@@ -133,6 +133,11 @@ pub fn auto_with_recombination(scenario: &Scenario, kind: EngineKind, reason: St
         Ok(p) if p.switch > 0 && p.switch < scenario.horizon() => {
             EngineDecision { kind: EngineKind::Hybrid, reason: p.reason, switch: Some(p.switch) }
         }
+        _ if kind == EngineKind::Approx => EngineDecision {
+            kind,
+            reason: format!("{reason}{}", crate::engine::approx_arg::describe(scenario)),
+            switch: None,
+        },
         _ => EngineDecision { kind, reason, switch: None },
     }
 }

@@ -225,6 +225,19 @@ pub fn arg_model(model: &ApproxModel, config: &ArgConfig) -> ArgModel {
     if scaled_rho(model, config) > SMC_RHO { ArgModel::SmcPrime } else { ArgModel::Hudson }
 }
 
+/// The process [`arg_model`] picks for a recombining scenario, in words for the engine
+/// decision (appended to its reason); empty without recombination or outside the domain.
+pub fn describe(scenario: &crate::scenario::Scenario) -> String {
+    let (Some(config), Ok(model)) = (scenario.recombination(), ApproxModel::new(scenario)) else {
+        return String::new();
+    };
+    let rho = scaled_rho(&model, config);
+    match arg_model(&model, config) {
+        ArgModel::Hudson => format!(" (Hudson's ARG: scaled rho = {rho:.4} <= {SMC_RHO})"),
+        ArgModel::SmcPrime => format!(" (SMC' along the sequence: scaled rho = {rho:.4} > {SMC_RHO})"),
+    }
+}
+
 /// Simulates approximate ARGs; owns scratch buffers reused across replicates.
 #[derive(Debug, Default)]
 pub struct ApproxArgSimulator {

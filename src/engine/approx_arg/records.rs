@@ -211,8 +211,16 @@ fn shape(g: &Genealogy) -> Vec<Shape> {
     rows
 }
 
-/// One row of a tree's canonical form: parent key, child key, jumps (see [`Shape`]).
-type Row = (u32, u64, u32, u64, u64);
+/// One row of a tree's canonical form, built without sorting: climbing from each sample in
+/// turn, every node met for the first time is a row (CHAIN, time, jumps of its edge, or ROOT
+/// for a root), and the node where the climb joins an earlier one is a row (smallest sample
+/// below it, its time, JOIN). A node's key (smallest sample below, time) is unique in a tree,
+/// so two trees have equal forms exactly when they are the same dated labelled tree with the
+/// same jumps on every edge.
+type Row = (u32, u64, u64);
+const CHAIN: u32 = NONE - 1;
+const ROOT: u64 = u64::MAX - 1;
+const JOIN: u64 = u64::MAX;
 
 /// The state of the sweep along the sequence, indexed by global node.
 struct Sweep {
@@ -222,6 +230,8 @@ struct Sweep {
     local: Vec<u32>,
     visited: Vec<u32>,
     roots: Vec<u32>,
+    inner: Vec<u32>,
+    pairs: Vec<u64>,
 }
 
 impl Sweep {
@@ -234,6 +244,8 @@ impl Sweep {
             local: vec![NONE; nn],
             visited: Vec::new(),
             roots: Vec::new(),
+            inner: Vec::new(),
+            pairs: Vec::new(),
         }
     }
 
@@ -306,31 +318,26 @@ impl Sweep {
     /// Marks the nodes of the current tree (climbing from every sample) and lists its rows.
     fn canonical(&mut self, r: &ArgRecords, rows: &mut Vec<Row>) {
         self.visited.clear();
+        rows.clear();
         for i in 0..r.n as u32 {
             let mut v = i;
-            while self.min_leaf[v as usize] == NONE {
-                self.min_leaf[v as usize] = i;
-                self.visited.push(v);
-                v = self.parent[v as usize];
-                if v == NONE {
+            loop {
+                let time = r.nodes[v as usize].time;
+                if self.min_leaf[v as usize] != NONE {
+                    rows.push((self.min_leaf[v as usize], time, JOIN));
                     break;
                 }
+                self.min_leaf[v as usize] = i;
+                self.visited.push(v);
+                let p = self.parent[v as usize];
+                if p == NONE {
+                    rows.push((CHAIN, time, ROOT));
+                    break;
+                }
+                rows.push((CHAIN, time, self.jumps[v as usize]));
+                v = p;
             }
         }
-        rows.clear();
-        let key = |s: &Self, v: u32| (s.min_leaf[v as usize], r.nodes[v as usize].time);
-        for &v in &self.visited {
-            let p = self.parent[v as usize];
-            if p != NONE {
-                let ((pm, pt), (cm, ct)) = (key(self, p), key(self, v));
-                rows.push((pm, pt, cm, ct, self.jumps[v as usize]));
-            }
-        }
-        for &root in &self.roots {
-            let (m, t) = key(self, root);
-            rows.push((NONE, 0, m, t, 0));
-        }
-        rows.sort_unstable();
     }
 
     fn clear_marks(&mut self) {
@@ -343,25 +350,32 @@ impl Sweep {
     /// samples, then the other nodes in increasing global index; edges by (parent, child).
     fn genealogy(&mut self, r: &ArgRecords) -> Genealogy {
         let n = r.n;
-        let mut g = Genealogy::with_samples(n);
+        self.inner.clear();
+        self.inner.extend(self.visited.iter().copied().filter(|&v| v as usize >= n));
+        self.inner.sort_unstable();
+        let n_edges = self.visited.iter().filter(|&&v| self.parent[v as usize] != NONE).count();
+        let mut g = Genealogy::with_capacity(n, n + self.inner.len(), n_edges);
         for v in &r.nodes[..n] {
             g.add_node(*v);
         }
-        let mut inner: Vec<u32> = self.visited.iter().copied().filter(|&v| v as usize >= n).collect();
-        inner.sort_unstable();
-        for &v in &inner {
+        for &v in &self.inner {
             self.local[v as usize] = g.add_node(r.nodes[v as usize]);
         }
+        // Local numbers keep the global order (samples first, then inner nodes in increasing
+        // index), so edges sorted by local (parent, child) are sorted by global ones.
         let local = |s: &Self, v: u32| if (v as usize) < n { v } else { s.local[v as usize] };
-        let mut edges: Vec<(u32, u32)> = self
-            .visited
-            .iter()
-            .filter(|&&v| self.parent[v as usize] != NONE)
-            .map(|&v| (self.parent[v as usize], v))
-            .collect();
-        edges.sort_unstable();
-        for (p, c) in edges {
-            g.add_edge(local(self, p), local(self, c), self.jumps[c as usize]);
+        self.pairs.clear();
+        for &v in &self.visited {
+            let p = self.parent[v as usize];
+            if p != NONE {
+                self.pairs.push(u64::from(local(self, p)) << 32 | u64::from(local(self, v)));
+            }
+        }
+        self.pairs.sort_unstable();
+        for k in 0..self.pairs.len() {
+            let (p, c) = ((self.pairs[k] >> 32) as u32, self.pairs[k] as u32);
+            let global = if (c as usize) < n { c } else { self.inner[c as usize - n] };
+            g.add_edge(p, c, self.jumps[global as usize]);
         }
         for &root in &self.roots {
             g.add_root(local(self, root));
@@ -373,5 +387,6 @@ impl Sweep {
 
 /// Whether two canonical forms are the same tree up to jumps.
 fn same_shape(a: &[Row], b: &[Row]) -> bool {
-    a.len() == b.len() && a.iter().zip(b).all(|(x, y)| (x.0, x.1, x.2, x.3) == (y.0, y.1, y.2, y.3))
+    let jumps_free = |x: &Row| if x.0 == CHAIN && x.2 != ROOT { (x.0, x.1, 0) } else { *x };
+    a.len() == b.len() && a.iter().zip(b).all(|(x, y)| jumps_free(x) == jumps_free(y))
 }

@@ -65,22 +65,15 @@ struct SNode {
     slot: u32,
 }
 
-/// An edge record with its links still unrounded (node times are rounded at the end).
-#[derive(Debug, Clone, Copy)]
-struct RawEdge {
-    left: u64,
-    right: u64,
-    parent: u32,
-    child: u32,
-    links: f64,
-}
-
 /// Simulates SMC' ancestries; owns scratch buffers reused across replicates.
 #[derive(Debug, Default)]
 pub(crate) struct SmcSimulator {
     nodes: Vec<SNode>,
     live: Vec<u32>,
-    edges: Vec<RawEdge>,
+    /// Edge records whose `jumps` field holds the bits of the unrounded links until
+    /// [`SmcSimulator::finish`] rounds node times (converted in place: the records are the
+    /// largest part of the memory).
+    edges: Vec<EdgeRec>,
     roots: Vec<RootRec>,
     split_gaps: Vec<u64>,
     /// The floating lineage's path.
@@ -89,6 +82,13 @@ pub(crate) struct SmcSimulator {
     events: Vec<(f64, u32, i32)>,
     counts: Vec<i64>,
     pick: Vec<u32>,
+    roots_now: Vec<u32>,
+    /// One Kingman deme: lineages never change state, so the number of branches present at
+    /// time t is (leaves active by t) - (inner nodes older than... below t), from two sorted
+    /// lists of times.
+    simple: bool,
+    leaf_on: Vec<f64>,
+    inner_times: Vec<f64>,
     tree_crossovers: u64,
     recombination_events: u64,
     steps: u64,
@@ -114,6 +114,7 @@ impl SmcSimulator {
         let n = samples.len();
         let c = Consts::new(model, config, n);
         self.reset(c.lambda.len());
+        self.simple = matches!(model.demes(), [crate::approx::DemeModel::Kingman { .. }]);
         for (i, s) in samples.iter().enumerate() {
             self.nodes.push(SNode {
                 time: s.time as f64,
@@ -144,6 +145,7 @@ impl SmcSimulator {
                 path.push(start);
                 self.nodes[leaf as usize].path = path;
                 self.add_live(leaf);
+                self.add_leaf_time(p.time);
                 self.draw_until(&c, model, leaf, p.time, rng);
                 continue;
             }
@@ -151,6 +153,7 @@ impl SmcSimulator {
             path.extend_from_slice(&self.fpath);
             self.nodes[leaf as usize].path = path;
             self.add_live(leaf);
+            self.add_leaf_time(p.time);
             match landing.target {
                 NONE => self.draw_until(&c, model, leaf, landing.time, rng),
                 target => self.insert(&c, leaf, target, landing.time, 0),
@@ -187,8 +190,10 @@ impl SmcSimulator {
                     }
                     m += 1;
                 }
-                for _ in 0..m {
-                    self.recombine(&c, model, gap, rng);
+                for i in 0..m {
+                    let total =
+                        if i == 0 { total } else { self.live.iter().map(|&v| self.nodes[v as usize].mass).sum() };
+                    self.recombine(&c, model, gap, total, rng);
                 }
                 self.tree_crossovers += m;
                 x = gap;
@@ -209,9 +214,27 @@ impl SmcSimulator {
         self.split_gaps.clear();
         self.counts.clear();
         self.counts.resize(n_demes, 0);
+        self.leaf_on.clear();
+        self.inner_times.clear();
         self.tree_crossovers = 0;
         self.recombination_events = 0;
         self.steps = 0;
+    }
+
+    fn add_leaf_time(&mut self, t: f64) {
+        let i = self.leaf_on.partition_point(|&x| x <= t);
+        self.leaf_on.insert(i, t);
+    }
+
+    fn add_inner_time(&mut self, t: f64) {
+        let i = self.inner_times.partition_point(|&x| x < t);
+        self.inner_times.insert(i, t);
+    }
+
+    fn remove_inner_time(&mut self, t: f64) {
+        let i = self.inner_times.partition_point(|&x| x < t);
+        debug_assert_eq!(self.inner_times[i], t);
+        self.inner_times.remove(i);
     }
 
     fn add_live(&mut self, v: u32) {
@@ -294,21 +317,15 @@ impl SmcSimulator {
             if node.parent == NONE {
                 push_root(&mut self.roots, node.left, x, v);
             } else {
-                self.edges.push(RawEdge {
-                    left: node.left,
-                    right: x,
-                    parent: node.parent,
-                    child: v,
-                    links: node.links,
-                });
+                let jumps = node.links.to_bits();
+                self.edges.push(EdgeRec { left: node.left, right: x, parent: node.parent, child: v, jumps });
             }
         }
         self.nodes[v as usize].left = x;
     }
 
     /// One crossover at `gap` on the current tree: the SMC' update.
-    fn recombine<R: Rng + ?Sized>(&mut self, c: &Consts, model: &ApproxModel, gap: u64, rng: &mut R) {
-        let total: f64 = self.live.iter().map(|&v| self.nodes[v as usize].mass).sum();
+    fn recombine<R: Rng + ?Sized>(&mut self, c: &Consts, model: &ApproxModel, gap: u64, total: f64, rng: &mut R) {
         let mut u = rng.random::<f64>() * total;
         let mut v = NONE;
         for &w in &self.live {
@@ -368,6 +385,7 @@ impl SmcSimulator {
             self.replace_kid(q, p, s);
         }
         self.remove_live(p);
+        self.remove_inner_time(p_time);
         self.nodes[p as usize].kids = [NONE; 2];
         self.nodes[p as usize].parent = NONE;
         self.update_weights(c, s);
@@ -470,6 +488,7 @@ impl SmcSimulator {
         self.nodes[target as usize].parent = u;
         self.nodes[v as usize].parent = u;
         self.add_live(u);
+        self.add_inner_time(time);
         for w in [target, v, u] {
             self.update_weights(c, w);
         }
@@ -481,11 +500,18 @@ impl SmcSimulator {
         let t0 = start.time;
         self.fpath.clear();
         self.fpath.push(start);
+        if self.simple {
+            return self.float_simple(c, model, t0, rng);
+        }
         // Root lineages drawn at least up to the start.
+        self.roots_now.clear();
         for k in 0..self.live.len() {
             let v = self.live[k];
-            while self.nodes[v as usize].parent == NONE && self.nodes[v as usize].until <= t0 {
-                self.extend_root(c, model, v, rng);
+            if self.nodes[v as usize].parent == NONE {
+                self.roots_now.push(v);
+                while self.nodes[v as usize].until <= t0 {
+                    self.extend_root(c, model, v, rng);
+                }
             }
         }
         self.build_timeline(t0);
@@ -495,9 +521,9 @@ impl SmcSimulator {
         loop {
             let mut bp = self.events.get(cursor).map_or(f64::INFINITY, |e| e.0);
             let mut root = NONE;
-            for &v in &self.live {
+            for &v in &self.roots_now {
                 let node = &self.nodes[v as usize];
-                if node.parent == NONE && node.until < bp {
+                if node.until < bp {
                     (bp, root) = (node.until, v);
                 }
             }
@@ -544,6 +570,41 @@ impl SmcSimulator {
             }
             state = own_event(c, model, mig, state, t, rng);
             self.fpath.push(state);
+        }
+    }
+
+    /// [`SmcSimulator::float`] in one Kingman deme: the floating lineage only coalesces; the
+    /// branches present at t are the active leaves below t minus the inner nodes below t.
+    fn float_simple<R: Rng + ?Sized>(&mut self, c: &Consts, model: &ApproxModel, t0: f64, rng: &mut R) -> Landing {
+        let mut li = self.leaf_on.partition_point(|&x| x <= t0);
+        let mut ii = self.inner_times.partition_point(|&x| x <= t0);
+        let mut k = li as i64 - ii as i64;
+        let mut t = t0;
+        let scale = c.scale[0];
+        loop {
+            let next_leaf = self.leaf_on.get(li).copied().unwrap_or(f64::INFINITY);
+            let next_inner = self.inner_times.get(ii).copied().unwrap_or(f64::INFINITY);
+            let bp = next_leaf.min(next_inner);
+            let tc = if k > 0 { model.coal_time(0, t, k as f64 / scale, exp1(rng)) } else { f64::INFINITY };
+            if tc >= bp {
+                if bp >= c.horizon || bp.is_infinite() {
+                    return Landing { time: c.horizon, target: NONE };
+                }
+                t = bp;
+                if next_leaf <= next_inner {
+                    k += 1;
+                    li += 1;
+                } else {
+                    k -= 1;
+                    ii += 1;
+                }
+                continue;
+            }
+            if tc >= c.horizon {
+                return Landing { time: c.horizon, target: NONE };
+            }
+            self.steps += 1;
+            return Landing { time: tc, target: self.pick_target(0, tc, rng) };
         }
     }
 
@@ -638,20 +699,12 @@ impl SmcSimulator {
             .zip(&int)
             .map(|(v, &t)| Node { time: t, deme: v.deme as usize, sample: v.sample })
             .collect();
-        let edges: Vec<EdgeRec> = self
-            .edges
-            .iter()
-            .map(|e| {
-                let len = int[e.parent as usize] - int[e.child as usize];
-                EdgeRec {
-                    left: e.left,
-                    right: e.right,
-                    parent: e.parent,
-                    child: e.child,
-                    jumps: (e.links.round().max(1.0) as u64).min(len),
-                }
-            })
-            .collect();
+        drop(by_child);
+        let mut edges = std::mem::take(&mut self.edges);
+        for e in &mut edges {
+            let len = int[e.parent as usize] - int[e.child as usize];
+            e.jumps = (f64::from_bits(e.jumps).round().max(1.0) as u64).min(len);
+        }
         let mut records = ArgRecords::empty(n, sites, nodes);
         records.edges = edges;
         records.roots = std::mem::take(&mut self.roots);
