@@ -1,5 +1,7 @@
 //! The approximate recombination engine: the continuous-time ancestral recombination graph
-//! (Hudson 1983) under the limits of [`crate::approx`], with crossovers only at reproduction.
+//! (Hudson 1983) under the limits of [`crate::approx`], with crossovers only at reproduction,
+//! and, at large rho, its sequentially Markov approximation SMC' ([`ArgModel`], [`arg_model`];
+//! Hudson's process makes O(rho²) events). User-level account: docs/approx-arg.md.
 //!
 //! Where [`crate::approx::choose`] finds a coalescent limit, the exact ARG engine
 //! ([`crate::arg`]) walks O(N × rho) generations per replicate; this engine simulates the
