@@ -185,6 +185,12 @@ fn engines_for_a_recombining_locus_are_chosen_and_reported() {
     assert_eq!(o.status.code(), Some(2));
     let err = String::from_utf8_lossy(&o.stderr);
     assert!(err.contains("slope") && err.contains("distant past"), "{err}");
+    // validate prints rho on the coalescent clock of the dormancy too.
+    let p = write(&d, "arm_v.yaml", arm);
+    let o = seedline(&["validate", &p]);
+    let text = String::from_utf8_lossy(&o.stdout);
+    assert!(text.contains("rho = 2 N r (L - 1) = 199.9990"), "{text}");
+    assert!(text.contains("2 N r (L - 1) E[R]/d = 399.9980"), "{text}");
     let (o, _) = run("arm2", arm, "fastest");
     assert_eq!(o.status.code(), Some(2));
     assert!(String::from_utf8_lossy(&o.stderr).contains("exact, approx, auto or hybrid"));

@@ -201,7 +201,7 @@ pub enum ArgModel {
 }
 
 /// Scaled rho above which [`arg_model`] picks SMC': there Hudson's O(rho²) events cost more
-/// than about 0.05 s per replicate (`cargo bench --bench approx_arg -- rho`).
+/// than about 0.05 s of CPU per replicate at n = 20 (`cargo bench --bench approx_arg -- rho`).
 pub const SMC_RHO: f64 = 1000.0;
 
 /// The population-scaled recombination rate of the locus on the limit's clock, the largest

@@ -196,3 +196,23 @@ fn mutations_streamed_are_those_placed_on_the_cut_trees() {
         assert_eq!(text, expected);
     }
 }
+
+#[test]
+fn value_stability() {
+    // Golden values: a change here changes every result of these engines for a given seed;
+    // update deliberately (and say so in the changelog of the commit).
+    let s = scenario(CASES[1]);
+    let model = ApproxModel::new(&s).unwrap();
+    let config = ArgConfig::new(50_000, 2e-8).unwrap();
+    let mut got = Vec::new();
+    for process in [ArgModel::Hudson, ArgModel::SmcPrime] {
+        let r =
+            ApproxArgSimulator::new().simulate_with(&model, &config, process, &mut replicate_rng(&master_key(77), 5));
+        let arg = r.clone().into_arg();
+        got.push((r.steps(), r.breakpoints(), arg.trees()[0].genealogy().tmrca().unwrap(), r.tree_crossovers()));
+    }
+    assert_eq!(got, GOLDEN);
+}
+
+/// (events, breakpoints, T_MRCA of site 0, crossovers on the trees) of Hudson and SMC', rand 0.10.4.
+const GOLDEN: [(u64, usize, u64, u64); 2] = [(700, 51, 32823, 70), (529, 23, 28075, 33)];

@@ -120,3 +120,21 @@ fn hand_over_keeps_every_site_and_makes_trees() {
     assert!(g.is_tree());
     assert!(g.steps() > 0);
 }
+
+#[test]
+fn value_stability() {
+    // Golden values (see approx_arg's): (events + steps, breakpoints, T_MRCA of site 0).
+    let s = scenario(
+        "demes: [{name: a, size: [{generations_ago: 0, size: 60}, {generations_ago: 40, size: 3000}]}]\n\
+         samples: [{deme: a, count: 8}]\n",
+    );
+    let model = ApproxModel::new(&s).unwrap();
+    let config = ArgConfig::new(5000, 1e-6).unwrap();
+    let r = HybridSimulator::new().simulate(&model, &config, 40, &mut replicate_rng(&master_key(78), 2));
+    let arg = r.clone().into_arg();
+    let got = (r.steps(), r.breakpoints(), arg.trees()[0].genealogy().tmrca().unwrap());
+    assert_eq!(got, GOLDEN);
+}
+
+/// Golden (steps, breakpoints, T_MRCA at site 0), rand 0.10.4.
+const GOLDEN: (u64, usize, u64) = (516, 66, 8657);
