@@ -350,12 +350,10 @@ impl SmcSimulator {
         if landing.target == v {
             // Back onto its own branch above the crossover: the tree stays; the path between
             // the crossover and the landing is the floating lineage's.
-            let old = std::mem::take(&mut self.nodes[v as usize].path);
-            let mut path = prefix(&old, tau);
-            path.extend_from_slice(&self.fpath);
-            path.extend(suffix(&old, landing.time).into_iter().skip(1));
+            let path = &mut self.nodes[v as usize].path;
+            let (cut, tail) = (before_time(path, tau), path.partition_point(|p| p.time <= landing.time));
+            path.splice(cut..tail, self.fpath.iter().copied());
             let before = self.nodes[v as usize].links;
-            self.nodes[v as usize].path = path;
             self.update_weights(c, v);
             if self.nodes[v as usize].links != before {
                 let links = self.nodes[v as usize].links;
@@ -373,9 +371,9 @@ impl SmcSimulator {
         }
         let p_path = std::mem::take(&mut self.nodes[p as usize].path);
         let p_time = self.nodes[p as usize].time;
-        let mut s_path = prefix(&self.nodes[s as usize].path, p_time);
+        let s_path = &mut self.nodes[s as usize].path;
+        s_path.truncate(before_time(s_path, p_time));
         s_path.extend_from_slice(&p_path);
-        self.nodes[s as usize].path = s_path;
         self.nodes[s as usize].parent = q;
         if q == NONE {
             let (until, event) = (self.nodes[p as usize].until, self.nodes[p as usize].until_event);
@@ -390,10 +388,9 @@ impl SmcSimulator {
         self.nodes[p as usize].parent = NONE;
         self.update_weights(c, s);
         // Re-attach v above the landing point.
-        let old = std::mem::take(&mut self.nodes[v as usize].path);
-        let mut path = prefix(&old, tau);
+        let path = &mut self.nodes[v as usize].path;
+        path.truncate(before_time(path, tau));
         path.extend_from_slice(&self.fpath);
-        self.nodes[v as usize].path = path;
         self.nodes[v as usize].parent = NONE;
         match landing.target {
             NONE => {
@@ -463,9 +460,9 @@ impl SmcSimulator {
         let u = self.nodes.len() as u32;
         self.close(target, x);
         let up = self.nodes[target as usize].parent;
-        let old = std::mem::take(&mut self.nodes[target as usize].path);
-        let above = suffix(&old, time);
-        self.nodes[target as usize].path = prefix(&old, time);
+        let path = &mut self.nodes[target as usize].path;
+        let above = suffix(path, time);
+        path.truncate(before_time(path, time));
         let deme = above[0].deme;
         let (until, event) = (self.nodes[target as usize].until, self.nodes[target as usize].until_event);
         self.nodes.push(SNode {
@@ -749,9 +746,9 @@ fn own_event<R: Rng + ?Sized>(
     }
 }
 
-/// The pieces of a path strictly before time t.
-fn prefix(path: &[Piece], t: f64) -> Vec<Piece> {
-    path[..path.partition_point(|p| p.time < t)].to_vec()
+/// The number of pieces of a path that start strictly before time t.
+fn before_time(path: &[Piece], t: f64) -> usize {
+    path.partition_point(|p| p.time < t)
 }
 
 /// The path from time t on: the state at t (starting at t), then the later pieces.
