@@ -161,7 +161,13 @@ fn astronomical_exact_runs_are_refused_before_they_start() {
         "huge-m.yaml",
         "horizon: 1.0e15\ndemes: [{name: a, size: 1.0e18, dormancy: {law: geometric, mean: 2}}]\nsamples: [{deme: a, count: 4}]\nmutation: {rate: 1.0e-20, sites: 100}\n",
     );
-    bad(&d, &["null", "huge-m.yaml", "--replicates", "10", "--out", "nul"], &["huge-m.yaml", "lineage steps"]);
+    bad(
+        &d,
+        &["null", "huge-m.yaml", "--replicates", "10", "--engine", "exact", "--out", "nul"],
+        &["huge-m.yaml", "lineage steps"],
+    );
+    // With `auto` (the default) the null runs on the approximate engine instead.
+    ok(&d, &["null", "huge-m.yaml", "--replicates", "10", "--out", "nul-auto", "-q"]);
     assert!(!d.join("run").exists() && !d.join("nul").exists());
     // Without dormancy the engine skips ahead: N = 1e18 is cheap.
     write(

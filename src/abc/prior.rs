@@ -107,7 +107,12 @@ impl Prior {
     /// the log scale for a log-uniform prior.
     fn transform_bounds(&self) -> (f64, f64) {
         let (lo, hi) = if self.integer {
-            (self.low - (0.5f64).min(self.low / 2.0), self.high + 0.5)
+            // On the log scale the widened low end must stay above 0.
+            let below = match self.kind {
+                PriorKind::LogUniform => 0.5f64.min(self.low / 2.0),
+                PriorKind::Uniform => 0.5,
+            };
+            (self.low - below, self.high + 0.5)
         } else {
             (self.low, self.high)
         };
