@@ -274,6 +274,11 @@ pub fn simulate_replicate(
         // Each locus has its own length when the scenario lists them.
         let model = scenario.locus_mutation(locus);
         let (mut out, mutations) = match engine.simulate(scratch, locus, &mut rng) {
+            Ancestry::Records(records) => {
+                // The approximate ARG (or the hybrid): local trees streamed from its records.
+                let text = keep.trees.then_some((labels, tag.as_str(), &mut newick));
+                records.locus(model.as_ref(), &demes, text, &mut rng)?
+            }
             Ancestry::Sequence(arg) => {
                 let mutations = match &model {
                     Some(m) => Some(crate::mutation::place_along(arg.trees(), m, demes.clone(), &mut rng)?),

@@ -69,7 +69,8 @@ enum Command {
         /// Also write ld.tsv: r² by distance within loci (all pairs of segregating sites)
         #[arg(long)]
         ld: bool,
-        /// Engine: exact, approx (continuous-time limit; refused outside its domain) or auto (approx where a limit holds)
+        /// Engine: exact, approx (continuous-time limit; refused outside its domain), hybrid
+        /// (exact for the recent generations, then approx) or auto (approx where a limit holds)
         #[arg(long, default_value = "auto")]
         engine: seedline::engine::EngineChoice,
     },
@@ -127,7 +128,7 @@ enum Command {
         /// Law of the family types: pm1 (±1) or normal
         #[arg(long, default_value = "pm1", value_parser = ["pm1", "normal"])]
         colours: String,
-        /// Engine: exact, approx (continuous-time limit; refused outside its domain) or auto (approx where a limit holds)
+        /// Engine: exact, approx (continuous-time limit; refused outside its domain), hybrid (exact, then approx) or auto (approx where a limit holds)
         #[arg(long, default_value = "auto")]
         engine: seedline::engine::EngineChoice,
     },
@@ -165,7 +166,7 @@ enum Command {
         /// Worker threads (0 = one per core)
         #[arg(long, default_value_t = 0)]
         threads: usize,
-        /// Engine: exact, approx (continuous-time limit; refused outside its domain) or auto (approx where a limit holds); part of the run's settings
+        /// Engine: exact, approx (continuous-time limit; refused outside its domain), hybrid (exact, then approx) or auto (approx where a limit holds); part of the run's settings
         #[arg(long, default_value = "auto")]
         engine: seedline::engine::EngineChoice,
     },
@@ -216,7 +217,7 @@ enum Command {
         /// Worker threads (0 = one per core)
         #[arg(long, default_value_t = 0)]
         threads: usize,
-        /// Engine: exact, approx (continuous-time limit; refused outside its domain) or auto (approx where a limit holds), chosen for each draw from the priors
+        /// Engine: exact, approx (continuous-time limit; refused outside its domain), hybrid (exact, then approx) or auto (approx where a limit holds), chosen for each draw from the priors
         #[arg(long, default_value = "auto")]
         engine: seedline::engine::EngineChoice,
         /// Output directory
@@ -258,7 +259,7 @@ enum Command {
         /// Worker threads (0 = one per core)
         #[arg(long, default_value_t = 0)]
         threads: usize,
-        /// Engine: exact, approx (continuous-time limit; refused outside its domain) or auto (approx where a limit holds), chosen for each design and draw from the priors
+        /// Engine: exact, approx (continuous-time limit; refused outside its domain), hybrid (exact, then approx) or auto (approx where a limit holds), chosen for each design and draw from the priors
         #[arg(long, default_value = "auto")]
         engine: seedline::engine::EngineChoice,
         /// Output directory

@@ -237,3 +237,56 @@ fn every_command_records_its_engine() {
     assert!(exact >= 1 && approx >= 90, "exact {exact}, approx {approx}");
     assert!(String::from_utf8_lossy(&o.stdout).contains("engine for h: --engine auto:"));
 }
+
+#[test]
+fn engines_for_a_recombining_locus_are_chosen_and_reported() {
+    // A fog-grass chromosome arm (invented): N = 50 000, geometric dormancy of mean 2, 200 kb
+    // at r = 1e-8: rho on the coalescent clock 2 N r (L - 1) E[R] = 400, so auto runs the
+    // approximate ARG (Hudson's process below rho = 1000) and says so; a recent bottleneck
+    // of 40 plants makes it the hybrid, with its switch time in summary.json.
+    let d = tempdir("engines-rec");
+    let arm = "seed: 3\nreplicates: 4\ndemes: [{name: slope, size: 50000, dormancy: {law: geometric, mean: 2}}]\n\
+               samples: [{deme: slope, count: 6}]\nmutation: {rate: 1.0e-9, sites: 200000}\nrecombination: {rate: 1.0e-8}\n";
+    let run = |name: &str, yaml: &str, engine: &str| {
+        let p = write(&d, &format!("{name}.yaml"), yaml);
+        let out = d.join(name);
+        let o = seedline(&["simulate", &p, "--engine", engine, "--out", out.to_str().unwrap()]);
+        (o, out)
+    };
+    let (o, out) = run("arm", arm, "auto");
+    assert!(o.status.success(), "{}", String::from_utf8_lossy(&o.stderr));
+    let summary: serde_json::Value =
+        serde_json::from_str(&std::fs::read_to_string(out.join("summary.json")).unwrap()).unwrap();
+    assert_eq!(summary["engine"]["kind"], "approx");
+    let reason = summary["engine"]["reason"].as_str().unwrap();
+    assert!(reason.contains("Hudson's ARG") && reason.contains("rho = 399.99"), "{reason}");
+    assert!(String::from_utf8_lossy(&o.stdout).contains("engine: approximate engine"));
+    let table = std::fs::read_to_string(out.join("replicates.tsv")).unwrap();
+    assert!(table.lines().next().unwrap().ends_with("breakpoints\tcrossovers"));
+    assert_eq!(table.lines().count(), 5);
+
+    let neck =
+        arm.replace("size: 50000,", "size: [{generations_ago: 0, size: 40}, {generations_ago: 30, size: 50000}],");
+    let (o, out) = run("neck", &neck, "auto");
+    assert!(o.status.success(), "{}", String::from_utf8_lossy(&o.stderr));
+    let summary: serde_json::Value =
+        serde_json::from_str(&std::fs::read_to_string(out.join("summary.json")).unwrap()).unwrap();
+    assert_eq!(summary["engine"]["kind"], "hybrid");
+    assert_eq!(summary["engine"]["switch"], 30);
+
+    // The hybrid asked for where no limit holds even in the distant past: exit 2, with why.
+    let tiny = arm.replace("size: 50000,", "size: 60,");
+    let (o, _) = run("tiny", &tiny, "hybrid");
+    assert_eq!(o.status.code(), Some(2));
+    let err = String::from_utf8_lossy(&o.stderr);
+    assert!(err.contains("slope") && err.contains("distant past"), "{err}");
+    // validate prints rho on the coalescent clock of the dormancy too.
+    let p = write(&d, "arm_v.yaml", arm);
+    let o = seedline(&["validate", &p]);
+    let text = String::from_utf8_lossy(&o.stdout);
+    assert!(text.contains("rho = 2 N r (L - 1) = 199.9990"), "{text}");
+    assert!(text.contains("2 N r (L - 1) E[R]/d = 399.9980"), "{text}");
+    let (o, _) = run("arm2", arm, "fastest");
+    assert_eq!(o.status.code(), Some(2));
+    assert!(String::from_utf8_lossy(&o.stderr).contains("exact, approx, auto or hybrid"));
+}

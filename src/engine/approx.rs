@@ -85,13 +85,9 @@ fn deme_models(scenario: &Scenario) -> Result<Vec<DemeModel>, ApproxError> {
         .map_err(|e| ApproxError::OutOfDomain { deme: e.deme, reason: e.reason })
 }
 
-/// Picks the engine for `auto`, with the reason in words: the exact engine with recombination
-/// (only it models it), otherwise the rule [`crate::theory::limits::check`] that `predict`
-/// also uses to label its limits.
+/// Picks the engine for `auto`, with the reason in words: the rule
+/// [`crate::theory::limits::check`] that `predict` also uses to label its limits.
 pub fn choose(scenario: &Scenario) -> (EngineKind, String) {
-    if scenario.recombination().is_some() {
-        return (EngineKind::Exact, "exact engine: only it models recombination within a locus".to_string());
-    }
     let c = crate::theory::limits::check(scenario);
     (if c.holds { EngineKind::Approx } else { EngineKind::Exact }, c.reason)
 }
@@ -105,33 +101,35 @@ pub fn simulate_approx<R: Rng + ?Sized>(scenario: &Scenario, rng: &mut R) -> Res
 
 /// An Exp(1) draw.
 #[inline(always)]
-fn exp1<R: Rng + ?Sized>(rng: &mut R) -> f64 {
+pub(crate) fn exp1<R: Rng + ?Sized>(rng: &mut R) -> f64 {
     Distribution::<f64>::sample(&Exp1, rng)
 }
 
 /// A migration epoch as per-generation rates of active lineages.
 #[derive(Debug, Clone)]
-struct MigEpoch {
-    end: f64,
+pub(crate) struct MigEpoch {
+    pub(crate) end: f64,
     /// out[d] = total rate (per generation) of leaving deme d for an active lineage.
-    out: Vec<f64>,
+    pub(crate) out: Vec<f64>,
     /// rows[d] = cumulative off-diagonal rates with their target demes.
-    rows: Vec<Vec<(f64, usize)>>,
+    pub(crate) rows: Vec<Vec<(f64, usize)>>,
 }
 
 /// The approximate engine for one scenario, built once and reused across replicates.
 #[derive(Debug, Clone)]
 pub struct ApproxModel<'a> {
-    scenario: &'a Scenario,
+    pub(crate) scenario: &'a Scenario,
     demes: Vec<DemeModel>,
     sizes: Vec<&'a [SizeEpoch]>,
     /// Constant size per deme when it never changes (fast path).
     constant: Vec<Option<f64>>,
-    mig: Vec<MigEpoch>,
-    migrates: bool,
-    horizon: f64,
+    pub(crate) mig: Vec<MigEpoch>,
+    pub(crate) migrates: bool,
+    pub(crate) horizon: f64,
     /// The plain Kingman fast path, when it applies.
     plain: Option<Plain>,
+    /// The hybrid's switch time ([`ApproxModel::with_switch`]).
+    switch: Option<u64>,
 }
 
 /// Constants of the plain Kingman fast path (one constant-size Kingman deme, every sample
@@ -250,7 +248,20 @@ impl<'a> ApproxModel<'a> {
             mig,
             migrates: scenario.migration().is_active(),
             horizon: scenario.horizon() as f64,
+            switch: None,
         })
+    }
+
+    /// The model run as the hybrid engine ([`crate::engine::hybrid`]): exact up to generation
+    /// `switch`, this model after.
+    pub fn with_switch(mut self, switch: u64) -> Self {
+        self.switch = Some(switch);
+        self
+    }
+
+    /// The hybrid's switch time, when the model runs as the hybrid engine.
+    pub fn switch_time(&self) -> Option<u64> {
+        self.switch
     }
 
     /// The limit model of each deme.
@@ -266,7 +277,7 @@ impl<'a> ApproxModel<'a> {
     /// N(u) = N(t) e^{-g (u - t)}:   H(Δ) = rate (e^{g Δ} - 1) / (g N(t)),   Δ = ln(1 + e g N(t) / rate) / g
     /// ```
     /// (g < 0 can leave the hazard bounded: then the next epoch, or never.)
-    fn coal_time(&self, deme: usize, t: f64, rate: f64, mut e: f64) -> f64 {
+    pub(crate) fn coal_time(&self, deme: usize, t: f64, rate: f64, mut e: f64) -> f64 {
         if let Some(n) = self.constant[deme] {
             return t + e * n / rate;
         }
@@ -312,12 +323,12 @@ impl<'a> ApproxModel<'a> {
         l.since = t;
     }
 
-    fn mig_index(&self, t: f64) -> usize {
+    pub(crate) fn mig_index(&self, t: f64) -> usize {
         if self.mig.len() == 1 { 0 } else { self.mig.partition_point(|e| e.end <= t).min(self.mig.len() - 1) }
     }
 
     /// The deme a lineage of deme `d` lands in for one link at time t (full row of M).
-    fn link_deme<R: Rng + ?Sized>(&self, d: usize, t: f64, rng: &mut R) -> usize {
+    pub(crate) fn link_deme<R: Rng + ?Sized>(&self, d: usize, t: f64, rng: &mut R) -> usize {
         if self.migrates { self.scenario.migration().parent_deme(d, t as u64, rng) } else { d }
     }
 

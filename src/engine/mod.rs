@@ -4,10 +4,12 @@
 //! - [`arg`]: the exact engine with recombination within a locus ([`arg::ArgSimulator`]).
 //! - [`approx`]: continuous-time limits whose cost does not grow with N
 //!   ([`approx::ApproxModel`]): Kingman with the Kaj–Krone–Lascoux time change, the
-//!   seed-bank coalescent, the structured coalescent.
+//!   seed-bank coalescent, the structured coalescent; with recombination the continuous-time
+//!   ARG under the same limits ([`approx_arg`]).
+//! - [`hybrid`]: the exact engine for the recent generations, then the approximate one.
 //!
 //! Every command goes through [`Engine`]: the user's [`EngineChoice`] (`--engine
-//! exact|approx|auto`) and the scenario give an [`EngineDecision`] (which engine, and why in
+//! exact|approx|hybrid|auto`) and the scenario give an [`EngineDecision`] (which engine, and why in
 //! words, written into each command's JSON); [`Engine::simulate`] then draws one locus'
 //! [`Ancestry`] from a random stream, with per-worker buffers in a [`Scratch`].
 //!
@@ -26,13 +28,15 @@
 //!
 //! **Adding an engine.** A new engine is one more [`EngineKind`] variant, one more arm in the
 //! private `Prepared` enum (the model built once per scenario), a rule in [`choose`] saying
-//! where `auto` picks it, and an arm in [`Engine::simulate`]. With recombination the rule
-//! today is "exact" (the only recombination engine); an approximate recombination engine or
-//! an exact-then-approximate hybrid goes into the recombination branch of [`choose`].
+//! where `auto` picks it, and an arm in [`Engine::simulate`]. With recombination `auto` takes
+//! the approximate ARG where the limit holds, the hybrid where only the recent past (or a
+//! large sample) is outside it ([`hybrid::auto_with_recombination`]), else the exact ARG.
 
 pub mod approx;
+pub mod approx_arg;
 pub mod arg;
 pub mod exact;
+pub mod hybrid;
 mod queue;
 
 pub use exact::{Simulator, simulate};
@@ -56,6 +60,9 @@ pub enum EngineChoice {
     /// The approximate engine where a limit applies (see [`choose`]), else the exact one.
     #[default]
     Auto,
+    /// Exact for the recent generations, approximate after a switch time ([`hybrid`]);
+    /// an error when the distant past is outside the limit.
+    Hybrid,
 }
 
 impl FromStr for EngineChoice {
@@ -65,6 +72,7 @@ impl FromStr for EngineChoice {
             "exact" => Ok(EngineChoice::Exact),
             "approx" => Ok(EngineChoice::Approx),
             "auto" => Ok(EngineChoice::Auto),
+            "hybrid" => Ok(EngineChoice::Hybrid),
             other => Err(Error::UnknownEngine(other.to_string())),
         }
     }
@@ -76,6 +84,7 @@ impl fmt::Display for EngineChoice {
             EngineChoice::Exact => "exact",
             EngineChoice::Approx => "approx",
             EngineChoice::Auto => "auto",
+            EngineChoice::Hybrid => "hybrid",
         })
     }
 }
@@ -88,6 +97,8 @@ pub enum EngineKind {
     Exact,
     /// The continuous-time approximate engine, [`ApproxModel`] (no recombination).
     Approx,
+    /// [`hybrid`]: exact up to the switch time, then [`ApproxModel`].
+    Hybrid,
 }
 
 impl fmt::Display for EngineKind {
@@ -95,6 +106,7 @@ impl fmt::Display for EngineKind {
         f.write_str(match self {
             EngineKind::Exact => "exact",
             EngineKind::Approx => "approx",
+            EngineKind::Hybrid => "hybrid",
         })
     }
 }
@@ -108,87 +120,99 @@ pub struct EngineDecision {
     pub requested: EngineChoice,
     /// Why, in words.
     pub reason: String,
+    /// The hybrid's switch time in generations ([`hybrid::plan`]).
+    #[serde(default, skip_serializing_if = "Option::is_none")]
+    pub switch: Option<u64>,
 }
 
 /// Why an engine cannot run.
 #[derive(Debug, Clone, PartialEq, thiserror::Error)]
 #[non_exhaustive]
 pub enum Error {
-    /// An engine name other than exact, approx or auto.
-    #[error("unknown engine `{0}`: use exact, approx or auto")]
+    /// An engine name other than exact, approx, hybrid or auto.
+    #[error("unknown engine `{0}`: use exact, approx, auto or hybrid")]
     UnknownEngine(String),
-    /// The approximate engine was asked for outside its domain.
-    #[error("--engine approx: {0}")]
-    Approx(#[from] ApproxError),
-    /// The approximate engine was asked for with recombination.
-    #[error("--engine approx: the approximate engine has no recombination within a locus: use --engine exact or auto")]
-    ApproxRecombination,
+    /// The approximate engine (or the hybrid) was asked for outside its domain.
+    #[error("--engine {choice}: {error}")]
+    Approx {
+        /// approx or hybrid.
+        choice: EngineChoice,
+        /// Why.
+        error: ApproxError,
+    },
 }
 
-/// The rule of `auto`: the engine to run for a scenario, with the reason in words.
-///
-/// With recombination within a locus: the exact engine (the only one that models it).
-/// Without: the approximate engine where every deme is inside a coalescent limit and the
-/// limit is accurate, else the exact one ([`approx::choose`] states the conditions).
+/// Picks the engine for `auto` without recombination, with the reason in words: the
+/// approximate engine where a coalescent limit is accurate ([`approx::choose`]), else the
+/// exact engine. With recombination [`resolve`] also weighs the hybrid.
 pub fn choose(scenario: &Scenario) -> (EngineKind, String) {
-    if scenario.recombination().is_some() {
-        // An approximate recombination engine and the hybrid add their rule here.
-        return (EngineKind::Exact, "exact engine: only it models recombination within a locus".to_string());
-    }
     approx::choose(scenario)
 }
 
 /// Resolves a user's choice: `exact` always runs; `approx` runs when every deme has a limit
-/// model (an error otherwise; the reason notes when `auto` would pick exact); `auto` is
-/// [`choose`].
+/// model (an error otherwise; the reason notes when `auto` would pick exact); `hybrid` runs
+/// when the limit holds after some switch time ([`hybrid::plan`]); `auto` is [`choose`], and
+/// for a recombining locus the hybrid where the recent past is outside the limit or the
+/// sample is large ([`hybrid::auto_with_recombination`]).
 pub fn resolve(choice: EngineChoice, scenario: &Scenario) -> Result<EngineDecision, Error> {
-    let decision = |kind, reason| EngineDecision { kind, requested: choice, reason };
+    let err = |error| Error::Approx { choice, error };
+    let decision = |kind, reason, switch| EngineDecision { kind, requested: choice, reason, switch };
     Ok(match choice {
-        EngineChoice::Exact => decision(EngineKind::Exact, "exact engine (requested)".to_string()),
+        EngineChoice::Exact => decision(EngineKind::Exact, "exact engine (requested)".to_string(), None),
+        EngineChoice::Hybrid => {
+            let plan = hybrid::plan(scenario).map_err(err)?;
+            decision(EngineKind::Hybrid, format!("{} (requested)", plan.reason), Some(plan.switch))
+        }
         EngineChoice::Approx => {
-            if scenario.recombination().is_some() {
-                return Err(Error::ApproxRecombination);
-            }
-            ApproxModel::new(scenario)?;
+            ApproxModel::new(scenario).map_err(err)?;
             let reason = match choose(scenario) {
                 (EngineKind::Approx, why) => format!("{why} (requested)"),
-                (EngineKind::Exact, why) => {
-                    format!("approximate engine (requested) outside its accuracy range; auto would pick {why}")
-                }
+                (_, why) => format!("approximate engine (requested) outside its accuracy range; auto would pick {why}"),
             };
-            decision(EngineKind::Approx, reason)
+            decision(EngineKind::Approx, format!("{reason}{}", approx_arg::describe(scenario)), None)
         }
         EngineChoice::Auto => {
             let (kind, reason) = choose(scenario);
-            decision(kind, reason)
+            if scenario.recombination().is_some() {
+                let (kind, reason, switch) = hybrid::auto_with_recombination(scenario, kind, reason);
+                decision(kind, reason, switch)
+            } else {
+                decision(kind, reason, None)
+            }
         }
     })
 }
 
-/// The ancestry of one locus.
-#[derive(Debug, Clone)]
+/// One locus' ancestry, as an engine builds it.
+#[derive(Debug)]
 pub enum Ancestry {
-    /// One genealogy for the whole locus (no recombination).
+    /// One genealogy (no recombination within the locus).
     Tree(Genealogy),
-    /// Local trees along the locus (recombination within it).
+    /// Local trees along the locus (the exact engine with recombination).
     Sequence(Arg),
+    /// The records of an approximate (or hybrid) ARG, whose local trees are streamed one at
+    /// a time ([`approx_arg::ArgRecords::for_each_tree`]).
+    Records(approx_arg::ArgRecords),
 }
 
-/// Scratch buffers of the engines, reused across replicates by one worker.
+/// Per-worker buffers of the engines, reused across replicates.
 #[derive(Debug, Default)]
 pub struct Scratch {
     exact: Simulator,
     arg: ArgSimulator,
+    approx_arg: approx_arg::ApproxArgSimulator,
+    hybrid: hybrid::HybridSimulator,
 }
 
 /// The model an engine builds once per scenario.
 #[derive(Debug)]
 enum Prepared<'a> {
     Exact,
+    /// The approximate engine; run as the hybrid when it carries a switch time.
     Approx(ApproxModel<'a>),
 }
 
-/// A scenario prepared for the engine that runs it; shared by all workers of a batch.
+/// One engine resolved for one scenario: what every command calls to simulate.
 #[derive(Debug)]
 pub struct Engine<'a> {
     scenario: &'a Scenario,
@@ -197,22 +221,27 @@ pub struct Engine<'a> {
 }
 
 impl<'a> Engine<'a> {
-    /// Resolves `choice` for the scenario ([`resolve`]) and builds the engine's model.
+    /// Resolves `choice` for `scenario` ([`resolve`]) and prepares the engine.
     pub fn new(scenario: &'a Scenario, choice: EngineChoice) -> Result<Self, Error> {
         let decision = resolve(choice, scenario)?;
+        let err = |error| Error::Approx { choice, error };
         let prepared = match decision.kind {
             EngineKind::Exact => Prepared::Exact,
-            EngineKind::Approx => Prepared::Approx(ApproxModel::new(scenario)?),
+            EngineKind::Approx => Prepared::Approx(ApproxModel::new(scenario).map_err(err)?),
+            EngineKind::Hybrid => {
+                Prepared::Approx(ApproxModel::new(scenario).map_err(err)?.with_switch(decision.switch.unwrap_or(0)))
+            }
         };
         Ok(Engine { scenario, decision, prepared })
     }
 
-    /// The exact engine for the scenario (never fails).
+    /// The exact engine, without asking the user (tests and theory checks).
     pub fn exact(scenario: &'a Scenario) -> Self {
         let decision = EngineDecision {
             kind: EngineKind::Exact,
             requested: EngineChoice::Exact,
             reason: "exact engine (requested)".to_string(),
+            switch: None,
         };
         Engine { scenario, decision, prepared: Prepared::Exact }
     }
@@ -222,7 +251,7 @@ impl<'a> Engine<'a> {
         self.scenario
     }
 
-    /// Which engine runs and why.
+    /// The engine that runs and why.
     pub fn decision(&self) -> &EngineDecision {
         &self.decision
     }
@@ -238,18 +267,23 @@ impl<'a> Engine<'a> {
         // Each locus has its own length (and so recombination along it) when the scenario lists them.
         match (&self.prepared, self.scenario.locus_recombination(locus)) {
             (Prepared::Exact, Some(config)) => Ancestry::Sequence(scratch.arg.simulate(self.scenario, &config, rng)),
-            (Prepared::Exact, None) => Ancestry::Tree(scratch.exact.simulate(self.scenario, rng)),
-            (Prepared::Approx(model), _) => Ancestry::Tree(model.simulate(rng)),
+            (Prepared::Approx(model), Some(config)) => Ancestry::Records(match model.switch_time() {
+                Some(t) => scratch.hybrid.simulate(model, &config, t, rng),
+                None => scratch.approx_arg.simulate(model, &config, rng),
+            }),
+            (_, None) => Ancestry::Tree(self.simulate_tree(scratch, rng)),
         }
     }
 
-    /// Simulates the genealogy of one site, drawing only from `rng`. Recombination is
-    /// ignored: the genealogy of a single site has the law of the engine without it (for
-    /// analyses of one site, such as `families`).
+    /// The genealogy of one locus without recombination (the scenario's recombination, if
+    /// any, is ignored): for a fixed number of mutations and for tree-only commands.
     pub fn simulate_tree<R: Rng + ?Sized>(&self, scratch: &mut Scratch, rng: &mut R) -> Genealogy {
         match &self.prepared {
             Prepared::Exact => scratch.exact.simulate(self.scenario, rng),
-            Prepared::Approx(model) => model.simulate(rng),
+            Prepared::Approx(model) => match model.switch_time() {
+                Some(t) => scratch.hybrid.genealogy(model, t, rng),
+                None => model.simulate(rng),
+            },
         }
     }
 }

@@ -43,14 +43,15 @@ fn auto_picks_approx_only_inside_a_limit() {
 }
 
 #[test]
-fn recombination_runs_exact_and_refuses_forced_approx() {
+fn recombination_in_the_limit_runs_the_approximate_arg() {
     let s = scenario(RECOMBINING);
     let e = Engine::new(&s, EngineChoice::Auto).unwrap();
-    assert_eq!(e.kind(), EngineKind::Exact);
-    assert!(e.decision().reason.contains("recombination"));
-    assert_eq!(Engine::new(&s, EngineChoice::Approx).unwrap_err(), Error::ApproxRecombination);
+    assert_eq!(e.kind(), EngineKind::Approx);
+    assert!(e.decision().reason.contains("ARG"), "{}", e.decision().reason);
     let mut rng = replicate_rng(&master_key(1), 0);
-    assert!(matches!(e.simulate(&mut Scratch::default(), 0, &mut rng), Ancestry::Sequence(_)));
+    assert!(matches!(e.simulate(&mut Scratch::default(), 0, &mut rng), Ancestry::Records(_)));
+    let exact = Engine::new(&s, EngineChoice::Exact).unwrap();
+    assert!(matches!(exact.simulate(&mut Scratch::default(), 0, &mut rng), Ancestry::Sequence(_)));
     // The genealogy of one site comes from the engine without recombination.
     let g = e.simulate_tree(&mut Scratch::default(), &mut replicate_rng(&master_key(1), 0));
     assert_eq!(g.n_samples(), 4);
@@ -62,7 +63,7 @@ fn forced_approx_outside_every_limit_is_an_error_naming_the_deme() {
         "demes: [{name: cave, size: 1000, dormancy: {law: pareto, alpha: 0.7}}]\nsamples: [{deme: cave, count: 3}]\n",
     );
     let err = Engine::new(&s, EngineChoice::Approx).unwrap_err();
-    assert!(matches!(err, Error::Approx(_)));
+    assert!(matches!(err, Error::Approx { .. }));
     assert!(err.to_string().contains("`cave`"), "{err}");
     // Auto falls back to the exact engine and says why.
     let e = Engine::new(&s, EngineChoice::Auto).unwrap();
@@ -82,6 +83,7 @@ fn each_engine_draws_only_from_the_given_stream() {
                 match a {
                     Ancestry::Tree(g) => g.write_newick(&labels, 0, &mut out),
                     Ancestry::Sequence(arg) => arg.write_newick(&labels, 0, &mut out),
+                    Ancestry::Records(r) => r.into_arg().write_newick(&labels, 0, &mut out),
                 }
                 out
             };

@@ -1078,7 +1078,19 @@ impl fmt::Display for Scenario {
             )?;
             for d in &self.demes {
                 if let Some(n) = d.size.as_constant() {
-                    writeln!(f, "  deme {}: rho = 2 N r (L - 1) = {:.4}", d.name, 2.0 * n as f64 * rate * gaps)?;
+                    let rho = 2.0 * n as f64 * rate * gaps;
+                    writeln!(f, "  deme {}: rho = 2 N r (L - 1) = {rho:.4}", d.name)?;
+                    // Dormancy slows coalescence by E[R]^2/d and recombination by E[R] only
+                    // (docs/approx-arg.md): on the coalescent clock rho grows by E[R]/d.
+                    let mean = crate::dormancy::LookBack::mean(&d.dormancy);
+                    if let Some(mean) = mean.filter(|&m| m > 1.0 && !d.dormancy.is_time_dependent()) {
+                        let gcd = d.dormancy.support_gcd().max(1) as f64;
+                        writeln!(
+                            f,
+                            "    on the coalescent clock of its dormancy: 2 N r (L - 1) E[R]/d = {:.4}",
+                            rho * mean / gcd
+                        )?;
+                    }
                 }
             }
         }

@@ -175,17 +175,69 @@ impl Arg {
     }
 }
 
+impl Arg {
+    /// An ARG from the records of another engine (nodes, edge and root pieces over the sites
+    /// where they hold, gaps where adjacent sites were separated), cut into local trees by the
+    /// same sweep as this engine's.
+    #[allow(clippy::too_many_arguments)]
+    pub(crate) fn from_records(
+        n_samples: usize,
+        sites: u64,
+        nodes: &[Node],
+        mut edges: Vec<EdgeRec>,
+        mut roots: Vec<RootRec>,
+        mut split_gaps: Vec<u64>,
+        (recombination_events, tree_crossovers, steps): (u64, u64, u64),
+    ) -> Arg {
+        split_gaps.sort_unstable();
+        let mut splits: Vec<(u64, u32)> = Vec::new();
+        for &g in &split_gaps {
+            match splits.last_mut() {
+                Some((h, c)) if *h == g => *c += 1,
+                _ => splits.push((g, 1)),
+            }
+        }
+        let (trees, breakpoints) = trees::build(n_samples, sites, nodes, &mut edges, &mut roots);
+        Arg {
+            sites,
+            n_samples,
+            trees,
+            recombination_events,
+            tree_crossovers,
+            breakpoints,
+            splits,
+            steps,
+            n_nodes: nodes.len(),
+        }
+    }
+}
+
 /// One interval of ancestral material carried by a lineage.
 #[derive(Debug, Clone, Copy, PartialEq, Eq)]
-struct Seg {
-    left: u64,
-    right: u64,
+pub(crate) struct Seg {
+    pub(crate) left: u64,
+    pub(crate) right: u64,
     /// Local-tree node at the bottom of the lineage's edge for these sites.
-    node: u32,
+    pub(crate) node: u32,
     /// Jumps since `node`, the one that landed here included.
-    jumps: u64,
+    pub(crate) jumps: u64,
     /// Samples below `node`.
-    count: u32,
+    pub(crate) count: u32,
+}
+
+/// The ancestry made by the exact engine up to a switch time (the hybrid engine's recent
+/// part): records so far, and the lineages whose next generation lies beyond the switch.
+#[derive(Debug)]
+pub(crate) struct Handover {
+    pub(crate) nodes: Vec<Node>,
+    pub(crate) edges: Vec<EdgeRec>,
+    pub(crate) roots: Vec<RootRec>,
+    pub(crate) split_gaps: Vec<u64>,
+    pub(crate) recombination_events: u64,
+    pub(crate) tree_crossovers: u64,
+    pub(crate) steps: u64,
+    /// (generation, deme, material) of every lineage handed over, in the order handed.
+    pub(crate) lineages: Vec<(u64, usize, Vec<Seg>)>,
 }
 
 /// A lineage waiting at (time, deme).
@@ -248,6 +300,8 @@ pub struct ArgSimulator {
     recombination_events: u64,
     tree_crossovers: u64,
     steps: u64,
+    /// Lineages handed over at the switch: (slab id, generation, deme).
+    handed: Vec<(u32, u64, usize)>,
 }
 
 impl ArgSimulator {
@@ -259,65 +313,9 @@ impl ArgSimulator {
     /// Simulates the ancestry of the scenario's sample along `config.sites()` sites, drawing
     /// only from `rng`.
     pub fn simulate<R: Rng + ?Sized>(&mut self, scenario: &Scenario, config: &ArgConfig, rng: &mut R) -> Arg {
-        let model = Model::new(scenario, config);
-        let samples = scenario.samples();
-        let n = samples.len();
-        self.reset();
-        let full = |i: usize| Seg { left: 0, right: model.sites, node: i as u32, jumps: 0, count: 1 };
-        for (i, s) in samples.iter().enumerate() {
-            self.nodes.push(Node { time: s.time, deme: s.deme, sample: Some(i as u32) });
-        }
-        for (i, s) in samples.iter().enumerate() {
-            if n == 1 {
-                self.roots.push(RootRec { left: 0, right: model.sites, node: 0 });
-                break;
-            }
-            let id = self.alloc();
-            self.slab[id as usize].push(full(i));
-            match s.kind {
-                SampleKind::Population => {
-                    self.queue.push(Entry { key: model.key(s.time, s.deme), node: i as u32, id, sample: true })
-                }
-                SampleKind::Seedbank => {
-                    // The seed was made a + 1 generations before sampling, as in the engine.
-                    let age = scenario.seed_age(s.deme, s.time).map_or(0, |a| a.sample(rng));
-                    self.reproduce(&model, id, s.time, s.deme, s.time.saturating_add(age + 1), rng);
-                }
-            }
-        }
-        // As in the engine: lineages that can never coalesce again (no migration path, or no
-        // shared sites with any lineage they could meet) stop at once instead of walking to
-        // the horizon; checked at the start, after groups and when a migration epoch ends.
-        let mut check_at = if model.reach { 0 } else { u64::MAX };
-        while let Some(&top) = self.queue.peek() {
-            if self.queue.len() == 1 {
-                // Nothing left to meet: the material can never coalesce again.
-                self.queue.pop();
-                self.stop(top.id);
-                break;
-            }
-            let (time, deme) = model.split(top.key);
-            if time >= check_at {
-                if self.all_apart(&model) {
-                    let ids: Vec<u32> = self.queue.drain().map(|e| e.id).collect();
-                    for id in ids {
-                        self.stop(id);
-                    }
-                    break;
-                }
-                check_at = model.scenario.migration().next_epoch_start(time);
-            }
-            if !top.sample && !self.queue.top_key_shared() {
-                self.queue.pop();
-                self.step(&model, top.id, time, deme, rng);
-                continue;
-            }
-            self.queue.pop_group(&mut self.group);
-            self.seat_group(&model, n as u32, time, deme, rng);
-            if model.reach {
-                check_at = 0;
-            }
-        }
+        let model = Model::new(scenario, config, None);
+        let n = scenario.samples().len();
+        self.run(&model, rng);
         self.split_gaps.sort_unstable();
         let mut splits: Vec<(u64, u32)> = Vec::new();
         for &g in &self.split_gaps {
@@ -340,6 +338,109 @@ impl ArgSimulator {
         }
     }
 
+    /// Runs the exact engine up to generation `switch` (below the horizon): samples older
+    /// than it, and lineages whose parents lie beyond it, are handed over instead of being
+    /// simulated. A lineage left alone is handed over at once: nothing in the exact part can
+    /// meet it. The crossovers of the reproduction that crosses the switch are drawn here.
+    pub(crate) fn simulate_until<R: Rng + ?Sized>(
+        &mut self,
+        scenario: &Scenario,
+        config: &ArgConfig,
+        switch: u64,
+        rng: &mut R,
+    ) -> Handover {
+        let model = Model::new(scenario, config, Some(switch));
+        self.run(&model, rng);
+        let lineages = std::mem::take(&mut self.handed)
+            .into_iter()
+            .map(|(id, time, deme)| {
+                let segs = std::mem::take(&mut self.slab[id as usize]);
+                self.free.push(id);
+                (time, deme, segs)
+            })
+            .collect();
+        Handover {
+            nodes: std::mem::take(&mut self.nodes),
+            edges: std::mem::take(&mut self.edges),
+            roots: std::mem::take(&mut self.roots),
+            split_gaps: std::mem::take(&mut self.split_gaps),
+            recombination_events: self.recombination_events,
+            tree_crossovers: self.tree_crossovers,
+            steps: self.steps,
+            lineages,
+        }
+    }
+
+    fn run<R: Rng + ?Sized>(&mut self, model: &Model, rng: &mut R) {
+        let scenario = model.scenario;
+        let samples = scenario.samples();
+        let n = samples.len();
+        self.reset();
+        let full = |i: usize| Seg { left: 0, right: model.sites, node: i as u32, jumps: 0, count: 1 };
+        for (i, s) in samples.iter().enumerate() {
+            self.nodes.push(Node { time: s.time, deme: s.deme, sample: Some(i as u32) });
+        }
+        for (i, s) in samples.iter().enumerate() {
+            if n == 1 {
+                self.roots.push(RootRec { left: 0, right: model.sites, node: 0 });
+                break;
+            }
+            if model.handoff && s.time > model.horizon {
+                continue;
+            }
+            let id = self.alloc();
+            self.slab[id as usize].push(full(i));
+            match s.kind {
+                SampleKind::Population => {
+                    self.queue.push(Entry { key: model.key(s.time, s.deme), node: i as u32, id, sample: true })
+                }
+                SampleKind::Seedbank => {
+                    // The seed was made a + 1 generations before sampling, as in the engine.
+                    let age = scenario.seed_age(s.deme, s.time).map_or(0, |a| a.sample(rng));
+                    self.reproduce(model, id, s.time, s.deme, s.time.saturating_add(age + 1), rng);
+                }
+            }
+        }
+        // As in the engine: lineages that can never coalesce again (no migration path, or no
+        // shared sites with any lineage they could meet) stop at once instead of walking to
+        // the horizon; checked at the start, after groups and when a migration epoch ends.
+        // The hybrid's exact part hands its lineages over instead (older samples may join).
+        let mut check_at = if model.reach && !model.handoff { 0 } else { u64::MAX };
+        while let Some(&top) = self.queue.peek() {
+            let (time, deme) = model.split(top.key);
+            if self.queue.len() == 1 {
+                self.queue.pop();
+                if model.handoff {
+                    self.handed.push((top.id, time, deme));
+                } else {
+                    // Nothing left to meet: the material can never coalesce again.
+                    self.stop(top.id);
+                }
+                break;
+            }
+            if time >= check_at {
+                if self.all_apart(model) {
+                    let ids: Vec<u32> = self.queue.drain().map(|e| e.id).collect();
+                    for id in ids {
+                        self.stop(id);
+                    }
+                    break;
+                }
+                check_at = scenario.migration().next_epoch_start(time);
+            }
+            if !top.sample && !self.queue.top_key_shared() {
+                self.queue.pop();
+                self.step(model, top.id, time, deme, rng);
+                continue;
+            }
+            self.queue.pop_group(&mut self.group);
+            self.seat_group(model, n as u32, time, deme, rng);
+            if model.reach && !model.handoff {
+                check_at = 0;
+            }
+        }
+    }
+
     fn reset(&mut self) {
         self.queue.clear();
         for s in &mut self.slab {
@@ -351,6 +452,7 @@ impl ArgSimulator {
         self.edges.clear();
         self.roots.clear();
         self.split_gaps.clear();
+        self.handed.clear();
         self.recombination_events = 0;
         self.tree_crossovers = 0;
         self.steps = 0;
@@ -546,18 +648,22 @@ impl ArgSimulator {
     ) {
         self.steps += 1;
         let mut other = None;
-        if model.rate > 0.0 && to_time <= model.horizon {
+        if model.rate > 0.0 && (to_time <= model.horizon || model.handoff) {
             other = self.crossovers(model, id, rng);
         }
         for part in [Some(id), other].into_iter().flatten() {
             let to = model.parent_deme(deme, time, rng);
-            if to_time > model.horizon {
+            if to_time > model.horizon && !model.handoff {
                 self.stop(part);
                 continue;
             }
             let segs = &mut self.slab[part as usize];
             for s in segs.iter_mut() {
                 s.jumps += 1;
+            }
+            if to_time > model.horizon {
+                self.handed.push((part, to_time, to));
+                continue;
             }
             let node = segs[0].node;
             self.queue.push(Entry { key: model.key(to_time, to), node, id: part, sample: false });
@@ -677,6 +783,8 @@ struct Model<'a> {
     constant_size: Vec<Option<u64>>,
     n_demes: u64,
     horizon: u64,
+    /// Lineages past `horizon` are handed over (the hybrid's switch) instead of stopping.
+    handoff: bool,
     migrates: bool,
     sites: u64,
     rate: f64,
@@ -685,14 +793,16 @@ struct Model<'a> {
 }
 
 impl<'a> Model<'a> {
-    fn new(scenario: &'a Scenario, config: &ArgConfig) -> Self {
+    fn new(scenario: &'a Scenario, config: &ArgConfig, switch: Option<u64>) -> Self {
         let demes = scenario.demes();
+        let handoff = switch.is_some_and(|t| t < scenario.horizon());
         Model {
+            handoff,
             scenario,
             dormancy: demes.iter().map(|d| d.dormancy()).collect(),
             constant_size: demes.iter().map(|d| d.size().as_constant()).collect(),
             n_demes: demes.len() as u64,
-            horizon: scenario.horizon(),
+            horizon: if handoff { switch.unwrap_or(u64::MAX) } else { scenario.horizon() },
             migrates: scenario.migration().is_active(),
             sites: config.sites(),
             rate: config.recombination_rate(),
