@@ -1691,8 +1691,9 @@ pub fn render_status(s: &Status) -> String {
         }
     }
     if let Some(k) = s.shards {
-        for i in &s.missing_shards {
-            out.push_str(&format!("{:<12} {:<8} no directory given holds it\n", format!("shard {i}/{k}"), "missing"));
+        for (a, b) in index_ranges(&s.missing_shards) {
+            let label = if a == b { format!("shard {a}/{k}") } else { format!("shards {a}-{b}/{k}") };
+            out.push_str(&format!("{label:<12} {:<8} no directory given holds it\n", "missing"));
         }
         for i in &s.duplicate_shards {
             out.push_str(&format!(
@@ -1710,7 +1711,11 @@ pub fn render_status(s: &Status) -> String {
     if s.is_complete() {
         out.push_str("complete: ready to merge\n");
     } else {
-        let rerun: Vec<String> = s.to_rerun().iter().map(u64::to_string).collect();
+        // Ranges as an array specification takes them: `1-3,7`.
+        let rerun: Vec<String> = index_ranges(&s.to_rerun())
+            .into_iter()
+            .map(|(a, b)| if a == b { a.to_string() } else { format!("{a}-{b}") })
+            .collect();
         out.push_str("not complete: ");
         if !rerun.is_empty() {
             out.push_str(&format!(
@@ -1720,6 +1725,18 @@ pub fn render_status(s: &Status) -> String {
             ));
         }
         out.push_str("then merge; merge refuses until then\n");
+    }
+    out
+}
+
+/// Sorted indices as runs of consecutive values `(first, last)`: 1, 2, 3, 7 → (1, 3), (7, 7).
+fn index_ranges(sorted: &[u64]) -> Vec<(u64, u64)> {
+    let mut out: Vec<(u64, u64)> = Vec::new();
+    for &i in sorted {
+        match out.last_mut() {
+            Some((_, last)) if *last + 1 == i => *last = i,
+            _ => out.push((i, i)),
+        }
     }
     out
 }

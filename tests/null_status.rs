@@ -68,7 +68,7 @@ fn status_reports_missing_damaged_and_absent_shards_and_clears_after_a_rerun() {
     assert!(text.contains("missing: 1 chunk(s): chunk_000001.tsv"), "{text}");
     assert!(text.contains("damaged: chunk_000000.tsv"), "{text}");
     assert!(text.contains("shard 3/4    missing"), "{text}");
-    assert!(text.contains("resubmit index 1,2,3"), "{text}");
+    assert!(text.contains("resubmit index 1-3)"), "{text}");
     // Merging now is refused.
     let o = Command::new(env!("CARGO_BIN_EXE_seedline"))
         .args(["merge", "null/shard_0", "null/shard_1", "null/shard_2", "--out", "all"])
