@@ -1530,6 +1530,7 @@ fn run_status(dir: &Path) -> Result<RunStatus> {
         chunk: manifest.chunk,
         count: Count::Poisson,
         max_new_chunks: None,
+        engine: EngineChoice::Auto,
     };
     let total = cfg.total_chunks();
     let ledger = read_ledger(dir);

@@ -3,6 +3,7 @@
 //! (complete), 3 (not complete) and 2 (bad input).
 
 use seedline::batch::BatchConfig;
+use seedline::engine::EngineChoice;
 use seedline::mutation::Count;
 use seedline::null::{self, NullConfig};
 use seedline::scenario::Scenario;
@@ -20,7 +21,14 @@ fn tempdir(name: &str) -> PathBuf {
 
 /// Shard `i` of 4 of 300 replicates in chunks of 25: 75 replicates, 3 chunks.
 fn shard(s: &Scenario, dir: &Path, i: u64) {
-    let cfg = NullConfig { replicates: 300, shard: (i, 4), chunk: 25, count: Count::Poisson, max_new_chunks: None };
+    let cfg = NullConfig {
+        replicates: 300,
+        shard: (i, 4),
+        chunk: 25,
+        count: Count::Poisson,
+        max_new_chunks: None,
+        engine: EngineChoice::Exact,
+    };
     null::run(s, cfg, BatchConfig::default(), &dir.join(format!("shard_{i}")), &|_| {}).unwrap();
 }
 
@@ -83,7 +91,14 @@ fn status_reports_missing_damaged_and_absent_shards_and_clears_after_a_rerun() {
         shard(&s, &d.join("null"), i);
     }
     assert_eq!(status(&d, &["null"]).0, Some(0));
-    let one = NullConfig { replicates: 300, shard: (0, 1), chunk: 40, count: Count::Poisson, max_new_chunks: None };
+    let one = NullConfig {
+        replicates: 300,
+        shard: (0, 1),
+        chunk: 40,
+        count: Count::Poisson,
+        max_new_chunks: None,
+        engine: EngineChoice::Exact,
+    };
     null::run(&s, one, BatchConfig::default(), &d.join("one"), &|_| {}).unwrap();
     null::merge(&[d.join("one")], &d.join("one_merged")).unwrap();
     let shards: Vec<PathBuf> = (0..4).map(|i| d.join(format!("null/shard_{i}"))).collect();
@@ -99,7 +114,14 @@ fn status_reports_missing_damaged_and_absent_shards_and_clears_after_a_rerun() {
 fn status_reads_the_chunk_manifest_and_the_per_locus_files() {
     let s = Scenario::from_yaml_str(&format!("{YAML}loci: 2\n"), "t").unwrap();
     let d = tempdir("ledger");
-    let cfg = NullConfig { replicates: 60, shard: (0, 1), chunk: 20, count: Count::Poisson, max_new_chunks: Some(2) };
+    let cfg = NullConfig {
+        replicates: 60,
+        shard: (0, 1),
+        chunk: 20,
+        count: Count::Poisson,
+        max_new_chunks: Some(2),
+        engine: EngineChoice::Exact,
+    };
     null::run(&s, cfg, BatchConfig::default(), &d.join("run"), &|_| {}).unwrap();
     // Stopped after 2 of 3 chunks (--max-chunks): the last is missing.
     let st = null::status(&[d.join("run")]).unwrap();
@@ -133,7 +155,14 @@ fn status_refuses_what_is_not_one_null_run() {
     let d = tempdir("bad");
     shard(&s, &d, 0);
     let other = Scenario::from_yaml_str(&YAML.replace("seed: 5", "seed: 6"), "t").unwrap();
-    let cfg = NullConfig { replicates: 300, shard: (1, 4), chunk: 25, count: Count::Poisson, max_new_chunks: None };
+    let cfg = NullConfig {
+        replicates: 300,
+        shard: (1, 4),
+        chunk: 25,
+        count: Count::Poisson,
+        max_new_chunks: None,
+        engine: EngineChoice::Exact,
+    };
     null::run(&other, cfg, BatchConfig::default(), &d.join("shard_1"), &|_| {}).unwrap();
     let (code, text) = status(&d, &["shard_0", "shard_1"]);
     assert_eq!(code, Some(2), "{text}");

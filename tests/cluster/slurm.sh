@@ -251,13 +251,15 @@ for f in null-job.sh merge-job.sh; do
   cp "$BASE/$f" "$BASE/tl/"
 done
 [ -n "$SUBMIT" ] && [ -n "$XARGS" ] || die "the submission or xargs block is missing from $DOC"
-# An invented scenario: a marsh plant with a soil seed bank (mean look-back 4 generations).
+# An invented scenario: a sedge of one fen whose seeds wait 80 generations in the soil on
+# average. A look-back beyond N/10 keeps `--engine auto` on the exact engine, about 100
+# replicates per CPU second here: slow enough to cancel a task mid-run.
 for d in work tl xargs ref; do
   cat >"$BASE/$d/H0.yaml" <<'EOF'
 seed: 11
-demes: [{name: marsh, size: 5000, dormancy: {law: geometric, mean: 4}}]
-samples: [{deme: marsh, count: 12}]
-mutation: {rate: 2.0e-7, sites: 50000}
+demes: [{name: fen, size: 600, dormancy: {law: geometric, mean: 80}}]
+samples: [{deme: fen, count: 12}]
+mutation: {rate: 2.0e-11, sites: 50000}
 EOF
 done
 export REPLICATES CHUNK
@@ -360,8 +362,12 @@ scontrol requeue "${TL2}_0"
 wait_for "${TL2}_0 requeued" 60 '[ "$(state "${TL2}_0")" = PENDING ]'
 n_rq=$(chunks null/shard_0)
 (cd null/shard_0 && md5sum chunk_*.tsv >"$BASE/tl/requeue.md5")
-scontrol update JobId="${TL2}_0" StartTime=now # Slurm holds a requeued job about 2 minutes
-wait_for "requeued ${TL2}_0 writing" 120 '[ "$(chunks null/shard_0)" -ge $((n_rq + 2)) ]'
+# Slurm holds a requeued job about 2 minutes; release it, but not within the second of the
+# requeue (a credential issued in the same second as the revocation is refused).
+sleep 2
+scontrol update JobId="${TL2}_0" StartTime=now
+wait_for "requeued ${TL2}_0 writing" 120 '[ "$(chunks null/shard_0)" -ge $((n_rq + 2)) ] ||
+  { ended "$TL2" && die "the requeued task ended without running again: $(scontrol -o show job "${TL2}_0")"; }'
 [ "$(field "${TL2}_0" Restarts)" = 1 ] || die "requeue: $(scontrol -o show job "${TL2}_0")"
 log "requeued ${TL2}_0 restarted and resumed after $n_rq chunks"
 scancel "${TL2}_0"
