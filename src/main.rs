@@ -22,7 +22,7 @@ directory holding files it did not write unless --force. Progress goes to stderr
 terminal, a line every ~10 s otherwise); --quiet silences it.
 
 Exit codes: 0 success (also when the output pipe is closed early), 2 bad input (scenario, data,
-flags or --out), 1 any other failure.";
+flags or --out), 1 any other failure; `status` exits 3 when a null run is not complete.";
 
 #[derive(Parser)]
 #[command(name = "seedline", version, about = "Exact genealogies and diversity under dormancy (seed banks, spores, resting eggs)", after_help = EXAMPLES)]
@@ -181,6 +181,13 @@ enum Command {
         #[command(flatten)]
         force: Force,
     },
+    /// Which shards and chunks of a null run are done, missing or damaged (check before merge;
+    /// exit code 0 complete, 3 not complete, 2 bad input)
+    Status {
+        /// Run directories (--out of `null` or `merge`), or a directory holding them
+        #[arg(required = true)]
+        dirs: Vec<PathBuf>,
+    },
     /// Test observed statistics against a null distribution
     Test {
         /// observed.json written by `seedline observe`
@@ -280,6 +287,7 @@ enum Command {
 const NULL_EXAMPLES: &str = "Examples:
   seedline null scenarios/lake-resting-eggs.yaml --replicates 10000 --out null/lake
   seedline null H0.yaml --replicates 100000 --shard 3/8 --out null/shard3    (one of 8 cluster jobs)
+  seedline status null                                   (which shards and chunks are done, missing, damaged)
   seedline merge null/shard* --out null/all
   seedline null H0.yaml --replicates 5000 --like observed/observed.json --out null/like
   seedline test observed/observed.json --null null/like --out test
@@ -348,6 +356,9 @@ fn main() -> ExitCode {
         Err(e) => {
             if is_broken_pipe(&e) {
                 return ExitCode::SUCCESS;
+            }
+            if e.is::<seedline::null::Incomplete>() {
+                return ExitCode::from(seedline::null::INCOMPLETE_EXIT);
             }
             note!("error: {e:#}");
             ExitCode::from(if is_bad_input(&e) { 2 } else { 1 })
@@ -616,6 +627,14 @@ fn run(cli: Cli) -> Result<()> {
             output.commit()?;
             out!("merged {n} replicates into {}\n", out.join("null.tsv").display())?;
             Ok(())
+        }
+        Command::Status { dirs } => {
+            let status = seedline::null::status(&dirs)?;
+            out!("{}", seedline::null::render_status(&status))?;
+            match status.is_complete() {
+                true => Ok(()),
+                false => Err(seedline::null::Incomplete.into()),
+            }
         }
         Command::Test { observed, null, out, force } => {
             use seedline::null as nl;

@@ -1426,3 +1426,318 @@ pub fn write_test(r: &TestReport, null: &NullTable, dir: &Path) -> Result<()> {
     write_atomic(&dir.join("test.json"), serde_json::to_string_pretty(r)?.as_bytes())?;
     Ok(())
 }
+
+/// What [`status`] found in one run directory.
+#[derive(Debug, Clone, Serialize)]
+pub struct RunStatus {
+    /// The directory.
+    pub dir: PathBuf,
+    /// Shard I of K (0/1 for an unsharded or merged run).
+    pub shard: (u64, u64),
+    /// A merged directory (`null.tsv`), checked as a whole.
+    pub merged: bool,
+    /// Replicates the directory must hold.
+    pub replicates: u64,
+    /// Chunks of the shard in all (1 for a merged directory).
+    pub total_chunks: u64,
+    /// Chunks present and matching the chunk manifest.
+    pub done_chunks: u64,
+    /// Absent chunks, as index ranges `from..to`.
+    pub missing: Vec<(u64, u64)>,
+    /// Files that cannot be trusted, with the reason (a rerun redoes them).
+    pub damaged: Vec<String>,
+    /// Temporary files lie there: a run is going on, or was killed.
+    pub unfinished_files: bool,
+}
+
+impl RunStatus {
+    /// Every chunk present and undamaged.
+    pub fn is_complete(&self) -> bool {
+        self.missing.is_empty() && self.damaged.is_empty() && self.done_chunks == self.total_chunks
+    }
+
+    /// Absent chunks in all.
+    pub fn missing_chunks(&self) -> u64 {
+        self.missing.iter().map(|(a, b)| b - a).sum()
+    }
+}
+
+/// What [`status`] found in a set of run directories: each run, and the shards of K that no
+/// directory holds or that two directories hold.
+#[derive(Debug, Clone, Serialize)]
+pub struct Status {
+    /// One entry per run directory, in the order given (a parent's runs sorted by name).
+    pub runs: Vec<RunStatus>,
+    /// K when every shard directory has the same K.
+    pub shards: Option<u64>,
+    /// Shard indices of K that no directory holds.
+    pub missing_shards: Vec<u64>,
+    /// Shard indices that more than one directory holds.
+    pub duplicate_shards: Vec<u64>,
+    /// With shards of different K: replicates that the directories fall short of in all.
+    pub replicates_short: u64,
+}
+
+impl Status {
+    /// Ready to merge (or merged): every shard present once, every chunk present and undamaged.
+    pub fn is_complete(&self) -> bool {
+        self.missing_shards.is_empty()
+            && self.duplicate_shards.is_empty()
+            && self.replicates_short == 0
+            && self.runs.iter().all(RunStatus::is_complete)
+    }
+
+    /// Shard indices to run again: absent, or with absent or damaged chunks (sorted).
+    pub fn to_rerun(&self) -> Vec<u64> {
+        let mut v: Vec<u64> = self.missing_shards.clone();
+        v.extend(self.runs.iter().filter(|r| !r.merged && !r.is_complete()).map(|r| r.shard.0));
+        v.sort_unstable();
+        v.dedup();
+        v
+    }
+}
+
+/// The null run is not complete ([`status`]): `seedline status` exits with [`INCOMPLETE_EXIT`].
+#[derive(Debug, thiserror::Error)]
+#[error("the null run is not complete")]
+pub struct Incomplete;
+
+/// Exit code of `seedline status` when shards or chunks are missing or damaged (0: complete,
+/// 2: bad input).
+pub const INCOMPLETE_EXIT: u8 = 3;
+
+/// The state of one run directory, from its `null.json`, chunk manifest and chunk files.
+/// Chunks are found by listing the directory, so a run of 10^18 replicates costs nothing.
+fn run_status(dir: &Path) -> Result<RunStatus> {
+    let manifest = manifest_of(dir)?;
+    if dir.join("null.tsv").exists() {
+        let problem = load(dir).err().map(|e| format!("{e:#}"));
+        return Ok(RunStatus {
+            dir: dir.to_path_buf(),
+            shard: (0, 1),
+            merged: true,
+            replicates: manifest.replicates,
+            total_chunks: 1,
+            done_chunks: u64::from(problem.is_none()),
+            missing: Vec::new(),
+            damaged: problem.into_iter().collect(),
+            unfinished_files: false,
+        });
+    }
+    let cfg = NullConfig {
+        replicates: manifest.replicates,
+        shard: (manifest.shard, manifest.shards),
+        chunk: manifest.chunk,
+        count: Count::Poisson,
+        max_new_chunks: None,
+        engine: EngineChoice::Auto,
+    };
+    let total = cfg.total_chunks();
+    let ledger = read_ledger(dir);
+    let n_loci = null_layout(&manifest).len() as u64;
+    let mut present = std::collections::BTreeSet::new();
+    let mut status = RunStatus {
+        dir: dir.to_path_buf(),
+        shard: cfg.shard,
+        merged: false,
+        replicates: cfg.shard_replicates(),
+        total_chunks: total,
+        done_chunks: 0,
+        missing: Vec::new(),
+        damaged: Vec::new(),
+        unfinished_files: false,
+    };
+    for p in chunk_files(dir)? {
+        let name = p.file_name().map(|n| n.to_string_lossy().into_owned()).unwrap_or_default();
+        let Some(c) = chunk_index(&name) else { continue };
+        if c >= total {
+            status.damaged.push(format!("{name} is not a chunk of this run ({total} chunks): remove it"));
+            continue;
+        }
+        present.insert(c);
+        let (from, to) = cfg.chunk_range(c);
+        let problem = chunk_problem(&p, &ledger, to - from).or_else(|| {
+            (n_loci > 1).then(|| chunk_problem(&dir.join(loci_chunk_name(c)), &ledger, (to - from) * n_loci)).flatten()
+        });
+        match problem {
+            None => status.done_chunks += 1,
+            Some(why) => status.damaged.push(why),
+        }
+    }
+    let mut next = 0;
+    for &c in &present {
+        if c > next {
+            status.missing.push((next, c));
+        }
+        next = c + 1;
+    }
+    if next < total {
+        status.missing.push((next, total));
+    }
+    for e in fs::read_dir(dir).with_context(|| format!("cannot list {}", dir.display()))? {
+        let name = e?.file_name().to_string_lossy().into_owned();
+        status.unfinished_files |=
+            (name.starts_with(".chunk_") || name.starts_with(".loci_")) && name.ends_with(".tmp");
+    }
+    Ok(status)
+}
+
+/// Which shards and chunks of a null run are done, missing or damaged: what to check before
+/// [`merge`]. Each of `dirs` is a run directory (`--out` of `seedline null` or `merge`) or a
+/// directory whose subdirectories are run directories. Runs of another scenario, seed,
+/// replicates or mutation setting than the first are refused, as by [`merge`].
+pub fn status(dirs: &[PathBuf]) -> Result<Status> {
+    ensure!(!dirs.is_empty(), "status needs at least one run directory");
+    let mut run_dirs = Vec::new();
+    for d in dirs {
+        if d.join("null.json").is_file() {
+            run_dirs.push(d.clone());
+            continue;
+        }
+        let mut subs: Vec<PathBuf> = match fs::read_dir(d) {
+            Ok(entries) => {
+                entries.filter_map(|e| e.ok().map(|e| e.path())).filter(|p| p.join("null.json").is_file()).collect()
+            }
+            Err(_) => Vec::new(),
+        };
+        if subs.is_empty() {
+            return Err(NullError::Chunks {
+                dir: d.clone(),
+                message: "neither a null run directory (no null.json) nor a directory holding any: give the --out of `seedline null` or `seedline merge`, or their parent".into(),
+            }
+            .into());
+        }
+        subs.sort();
+        run_dirs.extend(subs);
+    }
+    let first = manifest_of(&run_dirs[0])?;
+    let mut runs = Vec::new();
+    for d in &run_dirs {
+        let m = manifest_of(d)?;
+        let differs: Vec<&str> =
+            m.differences(&first).into_iter().filter(|d| !["shard", "chunk"].contains(d)).collect();
+        if !differs.is_empty() {
+            return Err(NullError::Chunks {
+                dir: d.clone(),
+                message: format!(
+                    "made with other settings than {} ({} differ): give the shards of one null run",
+                    run_dirs[0].display(),
+                    differs.join(", ")
+                ),
+            }
+            .into());
+        }
+        runs.push(run_status(d)?);
+    }
+    let shard_runs: Vec<&RunStatus> = runs.iter().filter(|r| !r.merged).collect();
+    let ks: std::collections::BTreeSet<u64> = shard_runs.iter().map(|r| r.shard.1).collect();
+    let (mut missing_shards, mut duplicate_shards, mut replicates_short) = (Vec::new(), Vec::new(), 0);
+    let shards = match ks.len() {
+        1 => ks.first().copied(),
+        _ => None,
+    };
+    if let Some(k) = shards {
+        let mut seen = BTreeMap::new();
+        for r in &shard_runs {
+            *seen.entry(r.shard.0).or_insert(0u32) += 1;
+        }
+        duplicate_shards = seen.iter().filter(|(_, n)| **n > 1).map(|(i, _)| *i).collect();
+        // Listed one by one: K is the number of jobs, never astronomically large.
+        missing_shards = (0..k).filter(|i| !seen.contains_key(i)).collect();
+    } else if ks.len() > 1 {
+        // Shards of different K: complete only if they add up to the replicates (merge checks
+        // that each replicate appears once).
+        let held: u64 = shard_runs.iter().map(|r| r.replicates).sum();
+        replicates_short = first.replicates.saturating_sub(held);
+    }
+    Ok(Status { runs, shards, missing_shards, duplicate_shards, replicates_short })
+}
+
+/// Renders a [`status`] for the terminal: one line per run, the shards no directory holds,
+/// and what to do.
+pub fn render_status(s: &Status) -> String {
+    let ranges = |v: &[(u64, u64)]| {
+        let shown: Vec<String> = v
+            .iter()
+            .take(4)
+            .map(|&(a, b)| if b - a == 1 { chunk_name(a) } else { format!("{}..{}", chunk_name(a), chunk_name(b - 1)) })
+            .collect();
+        format!("{}{}", shown.join(", "), if v.len() > 4 { ", ..." } else { "" })
+    };
+    let mut out = String::new();
+    for r in &s.runs {
+        let label = if r.merged { "merged".to_string() } else { format!("shard {}/{}", r.shard.0, r.shard.1) };
+        let state = if r.is_complete() {
+            "done"
+        } else if r.damaged.is_empty() {
+            "partial"
+        } else {
+            "damaged"
+        };
+        out.push_str(&format!(
+            "{label:<12} {state:<8} {} of {} chunks good, {} replicates  {}\n",
+            r.done_chunks,
+            r.total_chunks,
+            r.replicates,
+            r.dir.display()
+        ));
+        if !r.missing.is_empty() {
+            out.push_str(&format!("  missing: {} chunk(s): {}\n", r.missing_chunks(), ranges(&r.missing)));
+        }
+        for d in &r.damaged {
+            out.push_str(&format!("  damaged: {d}\n"));
+        }
+        if r.unfinished_files && !r.is_complete() {
+            out.push_str("  temporary files present: a run is going on in this directory, or was stopped\n");
+        }
+    }
+    if let Some(k) = s.shards {
+        for (a, b) in index_ranges(&s.missing_shards) {
+            let label = if a == b { format!("shard {a}/{k}") } else { format!("shards {a}-{b}/{k}") };
+            out.push_str(&format!("{label:<12} {:<8} no directory given holds it\n", "missing"));
+        }
+        for i in &s.duplicate_shards {
+            out.push_str(&format!(
+                "{:<12} {:<8} held by more than one directory: give one of them\n",
+                format!("shard {i}/{k}"),
+                "twice"
+            ));
+        }
+    } else if s.replicates_short > 0 {
+        out.push_str(&format!(
+            "missing      shards of different K that fall {} replicates short of all\n",
+            s.replicates_short
+        ));
+    }
+    if s.is_complete() {
+        out.push_str("complete: ready to merge\n");
+    } else {
+        // Ranges as an array specification takes them: `1-3,7`.
+        let rerun: Vec<String> = index_ranges(&s.to_rerun())
+            .into_iter()
+            .map(|(a, b)| if a == b { a.to_string() } else { format!("{a}-{b}") })
+            .collect();
+        out.push_str("not complete: ");
+        if !rerun.is_empty() {
+            out.push_str(&format!(
+                "rerun the same `seedline null` command for shard(s) {} (in a job array: resubmit index {}), ",
+                rerun.join(", "),
+                rerun.join(",")
+            ));
+        }
+        out.push_str("then merge; merge refuses until then\n");
+    }
+    out
+}
+
+/// Sorted indices as runs of consecutive values `(first, last)`: 1, 2, 3, 7 → (1, 3), (7, 7).
+fn index_ranges(sorted: &[u64]) -> Vec<(u64, u64)> {
+    let mut out: Vec<(u64, u64)> = Vec::new();
+    for &i in sorted {
+        match out.last_mut() {
+            Some((_, last)) if *last + 1 == i => *last = i,
+            _ => out.push((i, i)),
+        }
+    }
+    out
+}
