@@ -293,6 +293,9 @@ pub fn render_summary(summary: &SimulationSummary) -> String {
 /// [`LD_FILE`] with recombination and a mutation model, `loci.tsv` and `vcf/` on request.
 pub const SIMULATE_FILES: [&str; 3] = ["replicates.tsv", "trees.nwk", "summary.json"];
 
+/// The sample map written beside the VCFs (`vcf/samples.tsv`), ready for `observe --samples`.
+pub const VCF_SAMPLE_MAP: &str = "samples.tsv";
+
 /// Optional outputs of `simulate`.
 #[derive(Debug, Clone, Copy, Default)]
 pub struct SimulateOptions {
@@ -300,6 +303,8 @@ pub struct SimulateOptions {
     pub vcf: bool,
     /// Pair consecutive haplotypes into diploid genotypes in the VCF.
     pub diploid: bool,
+    /// Compress the VCFs with BGZF (`vcf/replicate_<i>.vcf.gz`).
+    pub bgzip: bool,
     /// Write `loci.tsv`, one row per locus.
     pub loci_table: bool,
     /// Exact, approximate or automatic choice of engine.
@@ -450,8 +455,11 @@ pub fn simulate_to_dir(
     let vcf_dir = dir.join("vcf");
     if options.vcf {
         anyhow::ensure!(mutation, "--vcf needs a mutation model: add a `mutation:` section to the scenario");
-        crate::vcf_export::columns(scenario.samples(), options.diploid)?;
+        let names: Vec<&str> = scenario.demes().iter().map(|d| d.name()).collect();
+        let map = crate::vcf_export::sample_map(scenario.samples(), &names, options.diploid)?;
         fs::create_dir_all(&vcf_dir).with_context(|| format!("creating {}", vcf_dir.display()))?;
+        let p = vcf_dir.join(VCF_SAMPLE_MAP);
+        write_atomic(&p, map.as_bytes()).with_context(|| format!("writing {}", p.display()))?;
     }
     let ld_edges = match (scenario.recombination(), mutation) {
         (Some(r), true) => Some(crate::batch::ld_bins(r.sites())),
@@ -509,7 +517,11 @@ pub fn simulate_to_dir(
                     format!("seedline {} replicate {rep} seed {}", env!("CARGO_PKG_VERSION"), scenario.seed());
                 let lengths: Vec<u64> = (0..loci).filter_map(|l| scenario.locus_sites(l)).collect();
                 crate::vcf_export::write(&mut buf, scenario.samples(), &ms, &lengths, options.diploid, &comment)?;
-                let p = vcf_dir.join(format!("replicate_{rep}.vcf"));
+                if options.bgzip {
+                    buf = crate::vcf_export::bgzip(&buf)?;
+                }
+                let gz = if options.bgzip { ".gz" } else { "" };
+                let p = vcf_dir.join(format!("replicate_{rep}.vcf{gz}"));
                 write_atomic(&p, &buf).with_context(|| format!("writing {}", p.display()))?;
             }
             for bins in loci_out.iter().filter_map(|l| l.ld.as_ref()) {
