@@ -431,6 +431,7 @@ fn run(cli: Cli) -> Result<()> {
                 &|| bar.inc(1),
             )?;
             bar.finish();
+            report_page(&output, "simulate")?;
             output.commit()?;
             out!("{}", seedline::report::render_summary(&summary))?;
             out!("{}", seedline::report::render_comparison(&summary.comparison))?;
@@ -506,6 +507,7 @@ fn run(cli: Cli) -> Result<()> {
                 })?;
             bar.finish();
             families::write_to_dir(&report, output.staging())?;
+            report_page(&output, "families")?;
             output.commit()?;
             out!("{}", families::render_summary(&report))?;
             out!("wrote {}\n", families::FILES.map(|f| out.join(f).display().to_string()).join(", "))?;
@@ -602,6 +604,7 @@ fn run(cli: Cli) -> Result<()> {
             let report = nl::test(&obs, &table)?;
             let output = Output::begin(&out, "test", force.force)?;
             nl::write_test(&report, &table, output.staging())?;
+            report_page(&output, "test")?;
             output.commit()?;
             out!("{}", nl::render_test(&report))?;
             let loci = if report.loci.is_empty() {
@@ -637,6 +640,7 @@ fn run(cli: Cli) -> Result<()> {
             let result = compare::run(&obs, hyps, opts, &|| bar.inc(1))?;
             bar.finish();
             compare::write(&result, output.staging())?;
+            report_page(&output, "compare")?;
             output.commit()?;
             out!("{}", compare::render(&result))?;
             out!("wrote results to {}\n", out.display())?;
@@ -690,6 +694,7 @@ fn run(cli: Cli) -> Result<()> {
             let result = design::run(&h0, &h1, &file, opts, &|| bar.inc(1))?;
             bar.finish();
             design::write(&result, output.staging())?;
+            report_page(&output, "design")?;
             output.commit()?;
             out!("{}", design::render(&result))?;
             out!("wrote results to {}\n", out.display())?;
@@ -697,6 +702,13 @@ fn run(cli: Cli) -> Result<()> {
         }
         Command::Validate { files } => validate(&files),
     }
+}
+
+/// Writes `report.html` (the page of the run) into the staged output directory.
+fn report_page(output: &Output, command: &str) -> Result<()> {
+    let argv: Vec<String> = std::env::args().collect();
+    seedline::report::html::write_report(output.staging(), output.dir(), command, &argv)?;
+    Ok(())
 }
 
 /// Refusals and notes for a hypothesis at both ends of its priors (the costlier end decides).

@@ -5,6 +5,7 @@
 //! never leaves a half-written file under the final name.
 
 pub mod figures;
+pub mod html;
 pub mod output;
 pub mod progress;
 
@@ -293,6 +294,9 @@ pub fn render_summary(summary: &SimulationSummary) -> String {
 /// [`LD_FILE`] with recombination and a mutation model, `loci.tsv` and `vcf/` on request.
 pub const SIMULATE_FILES: [&str; 3] = ["replicates.tsv", "trees.nwk", "summary.json"];
 
+/// The figure of the simulated against the predicted SFS (with a mutation model).
+pub const SFS_FIGURE: &str = "sfs.svg";
+
 /// The sample map written beside the VCFs (`vcf/samples.tsv`), ready for `observe --samples`.
 pub const VCF_SAMPLE_MAP: &str = "samples.tsv";
 
@@ -558,6 +562,23 @@ pub fn simulate_to_dir(
     if ld_edges.is_some() {
         let p = dir.join(LD_FILE);
         write_atomic(&p, ld_acc.to_tsv().as_bytes()).with_context(|| format!("writing {}", p.display()))?;
+    }
+    if mutation && n > 2 {
+        let sim: Vec<(f64, f64, f64)> = sfs_means
+            .iter()
+            .map(|c| {
+                let m = c.mean.unwrap_or(f64::NAN);
+                let (lo, hi) = c.mean_interval().unwrap_or((m, m));
+                (m, lo, hi)
+            })
+            .collect();
+        let label = prediction
+            .sfs_kind
+            .map(|k| format!("{}: {}", k.label(), prediction.sfs_source.as_deref().unwrap_or("source not recorded")));
+        let predicted = prediction.sfs_expected.as_deref().zip(label.as_deref());
+        let svg = figures::sfs_simulated(&sim, scenario.replicates(), predicted)?;
+        let p = dir.join(SFS_FIGURE);
+        write_atomic(&p, svg.as_bytes()).with_context(|| format!("writing {}", p.display()))?;
     }
     let json = serde_json::to_string_pretty(&summary)?;
     let p = dir.join(SIMULATE_FILES[2]);
