@@ -7,7 +7,7 @@ use seedline::scenario::{self, RawScenario, Scenario};
 use std::path::{Path, PathBuf};
 use std::process::ExitCode;
 
-const EXAMPLES: &str = "Examples (run from the checkout; examples/ holds invented data and hypotheses):
+const EXAMPLES: &str = "Examples: (run from the checkout; examples/ holds invented data and hypotheses)
   seedline simulate                              run the embedded demo scenario
   seedline simulate scenarios/desert-annual.yaml --replicates 100 --out runs/desert
   seedline simulate scenarios/meadow-two-slopes.yaml --seed 11 --threads 2 --out runs/meadow
@@ -265,7 +265,7 @@ enum Command {
     },
 }
 
-const NULL_EXAMPLES: &str = "Examples (run from the checkout):
+const NULL_EXAMPLES: &str = "Examples: (run from the checkout)
   seedline null scenarios/lake-resting-eggs.yaml --replicates 400 --out null/lake
   seedline null examples/null-no-dormancy.yaml --replicates 1000 --shard 0/2 --out null/shard0    (one of 2 cluster jobs)
   seedline null examples/null-no-dormancy.yaml --replicates 1000 --shard 1/2 --out null/shard1

@@ -172,7 +172,8 @@ fn every_report_renders_in_a_headless_browser() {
         eprintln!("skipped: no chromium on PATH (tests/browser.sh installs Debian's chromium and runs this test)");
         return;
     };
-    let dir = Path::new(env!("CARGO_TARGET_TMPDIR")).join(format!("report-browser-{}", std::process::id()));
+    // Kept after the run (one directory, emptied first) for a look at the screenshots.
+    let dir = Path::new(env!("CARGO_TARGET_TMPDIR")).join("report-browser");
     let _ = std::fs::remove_dir_all(&dir);
     std::fs::create_dir_all(&dir).unwrap();
     for d in ["examples", "scenarios"] {

@@ -138,6 +138,18 @@ pub fn render_report(dir: &Path, out: &Path, command: &str, argv: &[String]) -> 
         "<section id=\"inputs\"><h2>Inputs and settings</h2>\n<p>Command line:</p><pre>{}</pre>\n",
         escape(&shell_words(&line))
     );
+    let inputs = input_files(&argv[1.min(argv.len())..], out);
+    if !inputs.is_empty() {
+        body.push_str("<p>Input files (as read for this run):</p>\n<table><thead><tr><th>file</th><th>bytes</th><th>CRC-32</th></tr></thead><tbody>\n");
+        for (path, bytes, crc) in inputs {
+            let _ = writeln!(
+                body,
+                "<tr><td><code>{}</code></td><td class=\"num\">{bytes}</td><td><code>{crc}</code></td></tr>",
+                escape(&path)
+            );
+        }
+        body.push_str("</tbody></table>\n");
+    }
     if let Some(j) = &json {
         let rows = settings_rows(j);
         if !rows.is_empty() {
@@ -207,6 +219,21 @@ table{border-collapse:collapse;margin:.5em 0 1em;font-size:.9em}td,th{border:1px
 th{background:#f0f0f0}td.num{text-align:right;font-variant-numeric:tabular-nums}\
 figure{margin:1em 0;border:1px solid #ddd;padding:.5em;display:inline-block;max-width:100%}\
 figure svg{max-width:100%;height:auto;display:block}.wide{overflow-x:auto}figcaption{color:#555;font-size:.85em}";
+
+/// The arguments that name existing files (not the output directory): path, size, CRC-32.
+fn input_files(args: &[String], out: &Path) -> Vec<(String, u64, String)> {
+    let mut seen = Vec::new();
+    for a in args {
+        let p = Path::new(a);
+        if a.starts_with('-') || p == out || !p.is_file() || seen.iter().any(|(s, _, _)| s == a) {
+            continue;
+        }
+        if let Ok(bytes) = fs::read(p) {
+            seen.push((a.clone(), bytes.len() as u64, crate::report::output::crc32_hex(&bytes)));
+        }
+    }
+    seen
+}
 
 fn is_manifest(p: &Path) -> bool {
     p.file_name().is_some_and(|n| n == crate::report::output::MANIFEST)
@@ -413,10 +440,15 @@ mod tests {
         .unwrap();
         fs::write(dir.join("figures/pi.svg"), "<?xml version=\"1.0\"?>\n<svg width=\"10\" height=\"10\"></svg>")
             .unwrap();
-        let argv: Vec<String> = ["seedline", "test", "obs dir/observed.json"].map(String::from).to_vec();
+        let input = dir.with_extension("input.yaml");
+        fs::write(&input, "abc").unwrap();
+        let argv: Vec<String> =
+            vec!["seedline".into(), "test".into(), "obs dir/observed.json".into(), input.display().to_string()];
         let page = render_report(&dir, Path::new("runs/test"), "test", &argv).unwrap();
         assert!(page.starts_with("<!DOCTYPE html>"));
-        assert!(page.contains("<pre>seedline test &#39;obs dir/observed.json&#39;</pre>"));
+        assert!(page.contains("<pre>seedline test &#39;obs dir/observed.json&#39; "));
+        // CRC-32 of "abc" (the check value of the IEEE polynomial, RFC 1952 / zlib).
+        assert!(page.contains("<td class=\"num\">3</td><td><code>352441c2</code></td>"), "{page}");
         assert!(page.contains("<th>settings.replicates</th><td>100</td>"));
         assert!(page.contains("<th>seed</th><td>5</td>"));
         assert!(page.contains("<td class=\"num\">0.04</td>"));
@@ -427,5 +459,6 @@ mod tests {
         assert!(page.contains("not the probability that the null hypothesis is true"));
         assert!(!page.contains("<script"), "the page needs no script");
         let _ = fs::remove_dir_all(&dir);
+        let _ = fs::remove_file(&input);
     }
 }
