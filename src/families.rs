@@ -1016,7 +1016,42 @@ pub fn write_to_dir(report: &FamiliesReport, dir: &Path) -> Result<(), FamiliesE
     }
     let p = dir.join(FILES[5]);
     write_atomic(&p, serde_json::to_string_pretty(report)?.as_bytes()).map_err(io(&p))?;
+    for (name, svg) in figures(report) {
+        let p = dir.join(name);
+        write_atomic(&p, svg.as_bytes()).map_err(io(&p))?;
+    }
     Ok(())
+}
+
+/// The figures of a families run: relatedness by lag, MRCA depth at the largest lag with
+/// related pairs, growth of Var(S_m); a figure that cannot be drawn is left out.
+pub fn figures(report: &FamiliesReport) -> Vec<(&'static str, String)> {
+    use crate::report::figures as fig;
+    let mut out = Vec::new();
+    let sim: Vec<(f64, f64, Option<f64>)> =
+        report.relatedness.iter().map(|r| (r.lag as f64, r.simulated, r.se)).collect();
+    let pred: Vec<(f64, f64)> = report.relatedness.iter().filter_map(|r| Some((r.lag as f64, r.predicted?))).collect();
+    if let Ok(svg) = fig::relatedness_by_lag(&sim, &pred) {
+        out.push(("relatedness.svg", svg));
+    }
+    let lag = report.mrca_depth.iter().filter(|r| r.related_pairs > 0).map(|r| r.lag).max();
+    if let Some(lag) = lag {
+        let rows: Vec<&DepthRow> = report.mrca_depth.iter().filter(|r| r.lag == lag).collect();
+        let sim: Vec<(f64, f64, Option<f64>)> =
+            rows.iter().filter_map(|r| Some((r.x, r.simulated_cdf?, r.se))).collect();
+        let limit: Vec<(f64, f64)> = rows.iter().filter_map(|r| Some((r.x, r.limit_cdf?))).collect();
+        if let Ok(svg) = fig::mrca_depth(lag, &sim, &limit) {
+            out.push(("mrca_depth.svg", svg));
+        }
+    }
+    let sim: Vec<(f64, f64, Option<f64>)> =
+        report.coloured.iter().map(|r| (r.m as f64, r.simulated_var, r.se)).collect();
+    let exact: Vec<(f64, f64)> = report.coloured.iter().filter_map(|r| Some((r.m as f64, r.exact_var?))).collect();
+    let fit = report.fit.as_ref().map(|f| (f.two_h, [f.m_range[0] as f64, f.m_range[1] as f64]));
+    if let Ok(svg) = fig::variance_growth(&sim, &exact, fit, report.predicted_h) {
+        out.push(("coloured.svg", svg));
+    }
+    out
 }
 
 /// A compact human summary: regime, families, relatedness at a few lags, H.

@@ -7,15 +7,16 @@ use seedline::scenario::{self, RawScenario, Scenario};
 use std::path::{Path, PathBuf};
 use std::process::ExitCode;
 
-const EXAMPLES: &str = "Examples:
+const EXAMPLES: &str = "Examples: (run from the checkout; examples/ holds invented data and hypotheses)
   seedline simulate                              run the embedded demo scenario
-  seedline simulate scenarios/desert-annual.yaml --replicates 500 --out runs/desert
-  seedline simulate scenarios/meadow-two-slopes.yaml --seed 11 --threads 2
-  seedline simulate scenarios/lake-resting-eggs.yaml --vcf --diploid
+  seedline simulate scenarios/desert-annual.yaml --replicates 100 --out runs/desert
+  seedline simulate scenarios/meadow-two-slopes.yaml --seed 11 --threads 2 --out runs/meadow
+  seedline simulate scenarios/lake-resting-eggs.yaml --vcf --diploid --out runs/lake
   seedline predict scenarios/soil-microbe-rare-long.yaml --json
   seedline validate scenarios/lake-resting-eggs.yaml
-  seedline compare observed.json --hypotheses h-none.yaml h-pareto.yaml --simulations 2000 --out abc
-  seedline design --null h-none.yaml --alternative h-pareto.yaml --designs designs.yaml --out power
+  seedline observe examples/data.vcf.gz --samples examples/map.tsv --out observed
+  seedline compare observed/observed.json --hypotheses examples/h-none.yaml examples/h-pareto.yaml --simulations 400 --out abc
+  seedline design --null examples/h-none.yaml --alternative examples/h-pareto.yaml --designs examples/designs.yaml --replicates 200 --power-replicates 100 --out power
 
 Every command that writes --out stages its files and swaps them in when complete; it refuses a
 directory holding files it did not write unless --force. Progress goes to stderr (a bar on a
@@ -57,12 +58,15 @@ enum Command {
         out: PathBuf,
         #[command(flatten)]
         force: Force,
-        /// Also write vcf/replicate_<i>.vcf (needs a mutation model)
+        /// Also write vcf/replicate_<i>.vcf and the sample map vcf/samples.tsv (needs a mutation model)
         #[arg(long)]
         vcf: bool,
         /// In the VCF, pair consecutive haplotypes of one deme and time into phased diploids
         #[arg(long, requires = "vcf")]
         diploid: bool,
+        /// Compress the VCFs with BGZF (vcf/replicate_<i>.vcf.gz, readable by `observe` and gzip)
+        #[arg(long, requires = "vcf")]
+        bgzip: bool,
         /// Also write loci.tsv with one row per locus
         #[arg(long)]
         loci_table: bool,
@@ -284,12 +288,14 @@ enum Command {
     },
 }
 
-const NULL_EXAMPLES: &str = "Examples:
-  seedline null scenarios/lake-resting-eggs.yaml --replicates 10000 --out null/lake
-  seedline null H0.yaml --replicates 100000 --shard 3/8 --out null/shard3    (one of 8 cluster jobs)
-  seedline status null                                   (which shards and chunks are done, missing, damaged)
-  seedline merge null/shard* --out null/all
-  seedline null H0.yaml --replicates 5000 --like observed/observed.json --out null/like
+const NULL_EXAMPLES: &str = "Examples: (run from the checkout)
+  seedline null scenarios/lake-resting-eggs.yaml --replicates 400 --out null/lake
+  seedline null examples/null-no-dormancy.yaml --replicates 1000 --shard 0/2 --out null/shard0    (one of 2 cluster jobs)
+  seedline null examples/null-no-dormancy.yaml --replicates 1000 --shard 1/2 --out null/shard1
+  seedline status null/shard0 null/shard1                (which shards and chunks are done, missing, damaged)
+  seedline merge null/shard0 null/shard1 --out null/all
+  seedline observe examples/data.vcf.gz --samples examples/map.tsv --out observed
+  seedline null examples/null-no-dormancy.yaml --replicates 500 --like observed/observed.json --out null/like
   seedline test observed/observed.json --null null/like --out test
 
 Rerunning the same command in the same --out resumes after the last complete chunk.";
@@ -432,7 +438,7 @@ fn preflight(scenario: &Scenario, origin: &str, exact: bool, threads: usize, ui:
 fn run(cli: Cli) -> Result<()> {
     let ui = Ui { quiet: cli.quiet };
     match cli.command {
-        Command::Simulate { scenario, run, out, force, vcf, diploid, loci_table, ld, engine } => {
+        Command::Simulate { scenario, run, out, force, vcf, diploid, bgzip, loci_table, ld, engine } => {
             let (scenario, origin) = run.scenario(scenario.as_deref())?;
             if vcf && scenario.mutation().is_none() {
                 return Err(BadInput(format!(
@@ -455,11 +461,12 @@ fn run(cli: Cli) -> Result<()> {
                 &scenario,
                 &origin,
                 run.batch(),
-                seedline::report::SimulateOptions { vcf, diploid, loci_table, engine, ld },
+                seedline::report::SimulateOptions { vcf, diploid, bgzip, loci_table, engine, ld },
                 output.staging(),
                 &|| bar.inc(1),
             )?;
             bar.finish();
+            report_page(&output, "simulate")?;
             output.commit()?;
             out!("{}", seedline::report::render_summary(&summary))?;
             out!("{}", seedline::report::render_comparison(&summary.comparison))?;
@@ -534,6 +541,7 @@ fn run(cli: Cli) -> Result<()> {
             })?;
             bar.finish();
             families::write_to_dir(&report, output.staging())?;
+            report_page(&output, "families")?;
             output.commit()?;
             out!("{}", families::render_summary(&report))?;
             out!("engine: {}\n", report.engine.reason)?;
@@ -643,6 +651,7 @@ fn run(cli: Cli) -> Result<()> {
             let report = nl::test(&obs, &table)?;
             let output = Output::begin(&out, "test", force.force)?;
             nl::write_test(&report, &table, output.staging())?;
+            report_page(&output, "test")?;
             output.commit()?;
             out!("{}", nl::render_test(&report))?;
             let loci = if report.loci.is_empty() {
@@ -689,6 +698,7 @@ fn run(cli: Cli) -> Result<()> {
             let result = compare::run(&obs, hyps, opts, &|| bar.inc(1))?;
             bar.finish();
             compare::write(&result, output.staging())?;
+            report_page(&output, "compare")?;
             output.commit()?;
             out!("{}", compare::render(&result))?;
             for (h, e) in result.hypotheses.iter().zip(&result.engines) {
@@ -754,6 +764,7 @@ fn run(cli: Cli) -> Result<()> {
             let result = design::run(&h0, &h1, &file, opts, &|| bar.inc(1))?;
             bar.finish();
             design::write(&result, output.staging())?;
+            report_page(&output, "design")?;
             output.commit()?;
             out!("{}", design::render(&result))?;
             for (d, null, alternative) in &result.engines {
@@ -764,6 +775,13 @@ fn run(cli: Cli) -> Result<()> {
         }
         Command::Validate { files } => validate(&files),
     }
+}
+
+/// Writes `report.html` (the page of the run) into the staged output directory.
+fn report_page(output: &Output, command: &str) -> Result<()> {
+    let argv: Vec<String> = std::env::args().collect();
+    seedline::report::html::write_report(output.staging(), output.dir(), command, &argv)?;
+    Ok(())
 }
 
 /// Refusals and notes for a hypothesis at both ends of its priors (the costlier end decides).

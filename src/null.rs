@@ -1146,6 +1146,8 @@ pub struct TestReport {
     pub loci: Vec<LocusTest>,
     /// SFS goodness of fit: which spectrum (`unfolded`/`folded`), G observed, p-value.
     pub sfs_fit: Option<(String, f64, f64)>,
+    /// The spectra the fit compared: kind, observed, one row per null replicate (for figures).
+    pub sfs_compared: Option<(String, Vec<f64>, Vec<Vec<f64>>)>,
     /// Null replicates.
     pub replicates: usize,
     /// Notes.
@@ -1275,6 +1277,7 @@ pub fn test(observed: &ObservedData, null: &NullTable) -> Result<TestReport> {
         .collect();
     let b = null.rows.len();
     let mut sfs_fit = None;
+    let mut sfs_compared = None;
     if !xi_cols.is_empty() && b > 0 {
         let rows: Vec<Vec<f64>> = (0..b).map(|r| xi_cols.iter().map(|c| c[r]).collect()).collect();
         let (kind, obs, rows) = match (&observed.sfs, &observed.eta) {
@@ -1297,9 +1300,10 @@ pub fn test(observed: &ObservedData, null: &NullTable) -> Result<TestReport> {
             let mut g_null: Vec<f64> = rows.iter().map(|r| sfs_distance(r, &mean)).collect();
             g_null.sort_by(f64::total_cmp);
             sfs_fit = Some((kind.to_string(), g_obs, p_upper(&g_null, g_obs)));
+            sfs_compared = Some((kind.to_string(), obs, rows));
         }
     }
-    Ok(TestReport { statistics, loci, sfs_fit, replicates: b, notes })
+    Ok(TestReport { statistics, loci, sfs_fit, sfs_compared, replicates: b, notes })
 }
 
 /// Renders the test table for the terminal.
@@ -1394,10 +1398,14 @@ pub fn write_test(r: &TestReport, null: &NullTable, dir: &Path) -> Result<()> {
         if let Some(col) = null.column(&t.statistic) {
             let xs: Vec<f64> = col.into_iter().flatten().collect();
             if !xs.is_empty() {
-                let svg = crate::report::figures::null_histogram(&t.statistic, &xs, t.observed)?;
+                let svg = crate::report::figures::null_histogram(&t.statistic, &xs, t.observed, t.p_value)?;
                 write_atomic(&dir.join("figures").join(format!("{}.svg", t.statistic)), svg.as_bytes())?;
             }
         }
+    }
+    if let Some((kind, obs, rows)) = &r.sfs_compared {
+        let svg = crate::report::figures::sfs_band(kind, obs, rows, r.sfs_fit.as_ref().map(|f| f.2))?;
+        write_atomic(&dir.join("figures").join("sfs.svg"), svg.as_bytes())?;
     }
     write_atomic(&dir.join("test.tsv"), tsv.as_bytes())?;
     if !r.loci.is_empty() {

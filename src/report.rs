@@ -5,6 +5,7 @@
 //! never leaves a half-written file under the final name.
 
 pub mod figures;
+pub mod html;
 pub mod output;
 pub mod progress;
 
@@ -293,6 +294,12 @@ pub fn render_summary(summary: &SimulationSummary) -> String {
 /// [`LD_FILE`] (`--ld`), `loci.tsv` and `vcf/` on request.
 pub const SIMULATE_FILES: [&str; 3] = ["replicates.tsv", "trees.nwk", "summary.json"];
 
+/// The figure of the simulated against the predicted SFS (with a mutation model).
+pub const SFS_FIGURE: &str = "sfs.svg";
+
+/// The sample map written beside the VCFs (`vcf/samples.tsv`), ready for `observe --samples`.
+pub const VCF_SAMPLE_MAP: &str = "samples.tsv";
+
 /// Optional outputs of `simulate`.
 #[derive(Debug, Clone, Copy, Default)]
 pub struct SimulateOptions {
@@ -300,6 +307,8 @@ pub struct SimulateOptions {
     pub vcf: bool,
     /// Pair consecutive haplotypes into diploid genotypes in the VCF.
     pub diploid: bool,
+    /// Compress the VCFs with BGZF (`vcf/replicate_<i>.vcf.gz`).
+    pub bgzip: bool,
     /// Write `loci.tsv`, one row per locus.
     pub loci_table: bool,
     /// Exact, approximate or automatic choice of engine.
@@ -459,8 +468,11 @@ pub fn simulate_to_dir(
     let vcf_dir = dir.join("vcf");
     if options.vcf {
         anyhow::ensure!(mutation, "--vcf needs a mutation model: add a `mutation:` section to the scenario");
-        crate::vcf_export::columns(scenario.samples(), options.diploid)?;
+        let names: Vec<&str> = scenario.demes().iter().map(|d| d.name()).collect();
+        let map = crate::vcf_export::sample_map(scenario.samples(), &names, options.diploid)?;
         fs::create_dir_all(&vcf_dir).with_context(|| format!("creating {}", vcf_dir.display()))?;
+        let p = vcf_dir.join(VCF_SAMPLE_MAP);
+        write_atomic(&p, map.as_bytes()).with_context(|| format!("writing {}", p.display()))?;
     }
     let keep = crate::batch::Keep { trees: true, mutations: options.vcf, ld: ld_edges.is_some() };
     let mut ld_acc = LdAccumulator::new(ld_edges.as_deref().unwrap_or(&[]));
@@ -514,7 +526,11 @@ pub fn simulate_to_dir(
                     format!("seedline {} replicate {rep} seed {}", env!("CARGO_PKG_VERSION"), scenario.seed());
                 let lengths: Vec<u64> = (0..loci).filter_map(|l| scenario.locus_sites(l)).collect();
                 crate::vcf_export::write(&mut buf, scenario.samples(), &ms, &lengths, options.diploid, &comment)?;
-                let p = vcf_dir.join(format!("replicate_{rep}.vcf"));
+                if options.bgzip {
+                    buf = crate::vcf_export::bgzip(&buf)?;
+                }
+                let gz = if options.bgzip { ".gz" } else { "" };
+                let p = vcf_dir.join(format!("replicate_{rep}.vcf{gz}"));
                 write_atomic(&p, &buf).with_context(|| format!("writing {}", p.display()))?;
             }
             for bins in loci_out.iter().filter_map(|l| l.ld.as_ref()) {
@@ -551,6 +567,23 @@ pub fn simulate_to_dir(
     if ld_edges.is_some() {
         let p = dir.join(LD_FILE);
         write_atomic(&p, ld_acc.to_tsv().as_bytes()).with_context(|| format!("writing {}", p.display()))?;
+    }
+    if mutation && n > 2 {
+        let sim: Vec<(f64, f64, f64)> = sfs_means
+            .iter()
+            .map(|c| {
+                let m = c.mean.unwrap_or(f64::NAN);
+                let (lo, hi) = c.mean_interval().unwrap_or((m, m));
+                (m, lo, hi)
+            })
+            .collect();
+        let label = prediction
+            .sfs_kind
+            .map(|k| format!("{}: {}", k.label(), prediction.sfs_source.as_deref().unwrap_or("source not recorded")));
+        let predicted = prediction.sfs_expected.as_deref().zip(label.as_deref());
+        let svg = figures::sfs_simulated(&sim, scenario.replicates(), predicted)?;
+        let p = dir.join(SFS_FIGURE);
+        write_atomic(&p, svg.as_bytes()).with_context(|| format!("writing {}", p.display()))?;
     }
     let json = serde_json::to_string_pretty(&summary)?;
     let p = dir.join(SIMULATE_FILES[2]);

@@ -66,6 +66,26 @@ pub fn columns(samples: &[SampledIndividual], diploid: bool) -> Result<Vec<(Stri
     Ok(out)
 }
 
+/// The sample map of the VCF columns, as `observe --samples` reads it: a TSV with `sample`,
+/// `deme` (its name in `deme_names`), `generations_ago` and `ploidy` (1, or 2 when paired).
+pub fn sample_map(samples: &[SampledIndividual], deme_names: &[&str], diploid: bool) -> Result<String, Error> {
+    let mut map = String::from("sample\tdeme\tgenerations_ago\tploidy\n");
+    for (name, idx) in columns(samples, diploid)? {
+        let s = &samples[idx[0]];
+        let deme = deme_names.get(s.deme).copied().unwrap_or("");
+        map.push_str(&format!("{name}\t{deme}\t{}\t{}\n", s.time, idx.len()));
+    }
+    Ok(map)
+}
+
+/// Compresses `bytes` as BGZF (the blocked gzip of the SAM/VCF specifications, readable by
+/// any gzip reader).
+pub fn bgzip(bytes: &[u8]) -> io::Result<Vec<u8>> {
+    let mut w = noodles::bgzf::io::Writer::new(Vec::new());
+    w.write_all(bytes)?;
+    w.finish()
+}
+
 /// Writes one replicate's loci as VCF 4.3 into `out`; `lengths[l]` is the number of sites of
 /// locus l.
 pub fn write<W: Write>(
@@ -124,4 +144,41 @@ pub fn write<W: Write>(
         }
     }
     Ok(())
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+    use crate::scenario::Scenario;
+
+    #[test]
+    fn sample_map_names_every_column_with_its_deme_time_and_ploidy() {
+        let s = Scenario::from_yaml_str(
+            "demes: [{name: pond, size: 50}, {name: lake, size: 50}]\nsamples: [{deme: pond, count: 2}, {deme: lake, count: 2, generations_ago: 30}]\n",
+            "t",
+        )
+        .unwrap();
+        let names: Vec<&str> = s.demes().iter().map(|d| d.name()).collect();
+        let map = sample_map(s.samples(), &names, true).unwrap();
+        assert_eq!(map, "sample\tdeme\tgenerations_ago\tploidy\npond_0+1_t0\tpond\t0\t2\nlake_0+1_t30\tlake\t30\t2\n");
+        let haploid = sample_map(s.samples(), &names, false).unwrap();
+        assert_eq!(haploid.lines().count(), 5);
+        assert!(haploid.contains("lake_1_t30\tlake\t30\t1\n"));
+    }
+
+    #[test]
+    fn bgzip_output_is_read_back_by_a_plain_gzip_reader() {
+        // flate2's multi-member gzip reader is the outside reference: BGZF is a series of
+        // gzip members ending in an empty one (SAM/BAM format specification, section 4.1).
+        let text: Vec<u8> = (0..200_000u32).flat_map(|i| format!("{i}\t").into_bytes()).collect();
+        let z = bgzip(&text).unwrap();
+        assert!(z.len() < text.len());
+        let mut back = Vec::new();
+        std::io::Read::read_to_end(&mut flate2::read::MultiGzDecoder::new(&z[..]), &mut back).unwrap();
+        assert_eq!(back, text);
+        // The end-of-file marker block of the specification, byte for byte.
+        let eof =
+            [0x1f, 0x8b, 8, 4, 0, 0, 0, 0, 0, 0xff, 6, 0, 0x42, 0x43, 2, 0, 0x1b, 0, 3, 0, 0, 0, 0, 0, 0, 0, 0, 0];
+        assert_eq!(&z[z.len() - eof.len()..], &eof);
+    }
 }

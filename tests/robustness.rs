@@ -274,7 +274,8 @@ fn a_rerun_replaces_the_whole_output_set_and_never_mixes_two_runs() {
     let d = tempdir("rob-rerun");
     write(&d, "pond.yaml", POND);
     ok(&d, &["simulate", "pond.yaml", "--replicates", "6", "--vcf", "--out", "run", "-q"]);
-    assert_eq!(files_below(&d.join("run/vcf")).len(), 6);
+    // Six VCFs and their sample map.
+    assert_eq!(files_below(&d.join("run/vcf")).len(), 7);
     ok(&d, &["simulate", "pond.yaml", "--replicates", "2", "--out", "run", "-q"]);
     assert!(!d.join("run/vcf").exists(), "the earlier run's VCFs are gone");
     let manifest: serde_json::Value =

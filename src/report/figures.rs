@@ -1,9 +1,90 @@
 //! SVG figures, drawn with plotters' SVG backend (text is left to the viewer's fonts).
 
+use crate::abc::plot::sig;
 use plotters::prelude::*;
 
-/// Histogram of a null distribution with the observed value marked by a vertical line.
-pub fn null_histogram(name: &str, null: &[f64], observed: Option<f64>) -> anyhow::Result<String> {
+/// The q-quantile of sorted values (linear interpolation between order statistics).
+fn quantile(sorted: &[f64], q: f64) -> f64 {
+    let h = (sorted.len() - 1) as f64 * q;
+    let (i, f) = (h.floor() as usize, h - h.floor());
+    if i + 1 < sorted.len() { sorted[i] + f * (sorted[i + 1] - sorted[i]) } else { sorted[i] }
+}
+
+/// The observed site frequency spectrum over the null's central 95% band and mean, entry by
+/// entry (`kind` is `unfolded` or `folded`), with the goodness-of-fit p-value.
+pub fn sfs_band(kind: &str, observed: &[f64], null_rows: &[Vec<f64>], p_value: Option<f64>) -> anyhow::Result<String> {
+    let k = observed.len();
+    let mut svg = String::new();
+    {
+        let err = |e: &dyn std::fmt::Display| anyhow::anyhow!("drawing the SFS: {e}");
+        let root = SVGBackend::with_string(&mut svg, (720, 460)).into_drawing_area();
+        root.fill(&WHITE).map_err(|e| err(&e))?;
+        let mut band = Vec::with_capacity(k);
+        for i in 0..k {
+            let mut col: Vec<f64> = null_rows.iter().filter_map(|r| r.get(i).copied()).collect();
+            col.sort_by(f64::total_cmp);
+            let mean = col.iter().sum::<f64>() / col.len().max(1) as f64;
+            band.push(if col.is_empty() {
+                (0.0, 0.0, 0.0)
+            } else {
+                (quantile(&col, 0.025), mean, quantile(&col, 0.975))
+            });
+        }
+        let top = band.iter().map(|b| b.2).chain(observed.iter().copied()).fold(1.0f64, f64::max) * 1.1;
+        let p = p_value.map_or(String::new(), |p| format!(", fit p = {}", sig(p, 3)));
+        let mut chart = ChartBuilder::on(&root)
+            .caption(format!("Observed {kind} SFS against the null{p}"), ("sans-serif", 18))
+            .margin(12)
+            .x_label_area_size(45)
+            .y_label_area_size(60)
+            .build_cartesian_2d(0.5f64..k as f64 + 0.5, 0f64..top)
+            .map_err(|e| err(&e))?;
+        let entry = if kind == "folded" { "minor-allele count i (eta_i)" } else { "derived-allele count i (xi_i)" };
+        chart
+            .configure_mesh()
+            .x_labels(k.min(20))
+            .x_label_formatter(&|x| if x.fract() == 0.0 { format!("{x:.0}") } else { String::new() })
+            .x_desc(entry)
+            .y_desc("sites (summed over loci)")
+            .draw()
+            .map_err(|e| err(&e))?;
+        let fill = RGBColor(120, 150, 190).mix(0.35);
+        chart
+            .draw_series(band.iter().enumerate().map(|(i, b)| {
+                let x = (i + 1) as f64;
+                Rectangle::new([(x - 0.4, b.0), (x + 0.4, b.2)], fill.filled())
+            }))
+            .map_err(|e| err(&e))?
+            .label(format!("null central 95% ({} replicates)", null_rows.len()))
+            .legend(move |(x, y)| Rectangle::new([(x, y - 5), (x + 18, y + 5)], fill.filled()));
+        chart
+            .draw_series(LineSeries::new(
+                band.iter().enumerate().map(|(i, b)| ((i + 1) as f64, b.1)),
+                BLUE.stroke_width(2),
+            ))
+            .map_err(|e| err(&e))?
+            .label("null mean")
+            .legend(|(x, y)| PathElement::new([(x, y), (x + 18, y)], BLUE.stroke_width(2)));
+        chart
+            .draw_series(observed.iter().enumerate().map(|(i, &o)| Circle::new(((i + 1) as f64, o), 4, RED.filled())))
+            .map_err(|e| err(&e))?
+            .label("observed")
+            .legend(|(x, y)| Circle::new((x + 9, y), 4, RED.filled()));
+        chart
+            .configure_series_labels()
+            .position(SeriesLabelPosition::UpperRight)
+            .background_style(WHITE.mix(0.85))
+            .border_style(BLACK)
+            .draw()
+            .map_err(|e| err(&e))?;
+        root.present().map_err(|e| err(&e))?;
+    }
+    Ok(svg)
+}
+
+/// Histogram of a null distribution with the observed value marked by a vertical line,
+/// labelled with the value and its two-sided empirical p-value, and the null's central 95%.
+pub fn null_histogram(name: &str, null: &[f64], observed: Option<f64>, p_value: Option<f64>) -> anyhow::Result<String> {
     let mut svg = String::new();
     {
         let root = SVGBackend::with_string(&mut svg, (640, 400)).into_drawing_area();
@@ -34,7 +115,13 @@ pub fn null_histogram(name: &str, null: &[f64], observed: Option<f64>) -> anyhow
         }
         let top = counts.iter().copied().max().unwrap_or(1).max(1);
         let mut chart = ChartBuilder::on(&root)
-            .caption(format!("{name}: null distribution ({} replicates)", null.len()), ("sans-serif", 18))
+            .caption(
+                match p_value {
+                    Some(p) => format!("{name}: observed against the null (two-sided p = {})", sig(p, 3)),
+                    None => format!("{name}: null distribution"),
+                },
+                ("sans-serif", 18),
+            )
             .margin(10)
             .x_label_area_size(35)
             .y_label_area_size(45)
@@ -42,8 +129,8 @@ pub fn null_histogram(name: &str, null: &[f64], observed: Option<f64>) -> anyhow
             .map_err(|e| anyhow::anyhow!("drawing {name}: {e}"))?;
         chart
             .configure_mesh()
-            .x_desc(name)
-            .y_desc("replicates")
+            .x_desc(format!("{name} (summed over loci where it adds up)"))
+            .y_desc(format!("null replicates (of {})", null.len()))
             .draw()
             .map_err(|e| anyhow::anyhow!("drawing {name}: {e}"))?;
         chart
@@ -51,20 +138,283 @@ pub fn null_histogram(name: &str, null: &[f64], observed: Option<f64>) -> anyhow
                 let x0 = lo + i as f64 * width;
                 Rectangle::new([(x0, 0), (x0 + width, c)], RGBColor(120, 150, 190).filled())
             }))
-            .map_err(|e| anyhow::anyhow!("drawing {name}: {e}"))?;
-        if let Some(o) = observed {
-            chart
-                .draw_series(LineSeries::new([(o, 0), (o, top + top / 10 + 1)], RED.stroke_width(3)))
-                .map_err(|e| anyhow::anyhow!("drawing {name}: {e}"))?
-                .label("observed")
-                .legend(|(x, y)| PathElement::new([(x, y), (x + 20, y)], RED));
-            chart
-                .configure_series_labels()
-                .border_style(BLACK)
-                .draw()
-                .map_err(|e| anyhow::anyhow!("drawing {name}: {e}"))?;
+            .map_err(|e| anyhow::anyhow!("drawing {name}: {e}"))?
+            .label(format!("null distribution ({} replicates)", null.len()))
+            .legend(|(x, y)| Rectangle::new([(x, y - 5), (x + 18, y + 5)], RGBColor(120, 150, 190).filled()));
+        let ymax = top + top / 10 + 1;
+        if null.len() >= 2 {
+            let mut sorted = null.to_vec();
+            sorted.sort_by(f64::total_cmp);
+            let (q_lo, q_hi) = (quantile(&sorted, 0.025), quantile(&sorted, 0.975));
+            for (k, q) in [q_lo, q_hi].into_iter().enumerate() {
+                let a = chart
+                    .draw_series(DashedLineSeries::new([(q, 0), (q, ymax)], 6, 4, BLACK.stroke_width(1)))
+                    .map_err(|e| anyhow::anyhow!("drawing {name}: {e}"))?;
+                if k == 0 {
+                    a.label(format!("null central 95% [{}, {}]", sig(q_lo, 4), sig(q_hi, 4)))
+                        .legend(|(x, y)| PathElement::new([(x, y), (x + 18, y)], BLACK.stroke_width(1)));
+                }
+            }
         }
+        if let Some(o) = observed {
+            let p = p_value.map_or(String::new(), |p| format!(", p = {}", sig(p, 3)));
+            chart
+                .draw_series(LineSeries::new([(o, 0), (o, ymax)], RED.stroke_width(3)))
+                .map_err(|e| anyhow::anyhow!("drawing {name}: {e}"))?
+                .label(format!("observed {}{p}", sig(o, 4)))
+                .legend(|(x, y)| PathElement::new([(x, y), (x + 18, y)], RED.stroke_width(3)));
+        }
+        chart
+            .configure_series_labels()
+            .position(SeriesLabelPosition::UpperRight)
+            .background_style(WHITE.mix(0.85))
+            .border_style(BLACK)
+            .draw()
+            .map_err(|e| anyhow::anyhow!("drawing {name}: {e}"))?;
         root.present().map_err(|e| anyhow::anyhow!("drawing {name}: {e}"))?;
     }
     Ok(svg)
+}
+
+/// The simulated mean SFS (with the 95% interval of each mean) against the predicted one,
+/// labelled with the prediction's kind and source.
+pub fn sfs_simulated(
+    simulated: &[(f64, f64, f64)],
+    replicates: u64,
+    predicted: Option<(&[f64], &str)>,
+) -> anyhow::Result<String> {
+    let k = simulated.len();
+    let mut svg = String::new();
+    {
+        let err = |e: &dyn std::fmt::Display| anyhow::anyhow!("drawing the SFS: {e}");
+        let root = SVGBackend::with_string(&mut svg, (720, 460)).into_drawing_area();
+        root.fill(&WHITE).map_err(|e| err(&e))?;
+        let top = simulated
+            .iter()
+            .map(|s| s.2)
+            .chain(predicted.iter().flat_map(|p| p.0.iter().copied()))
+            .filter(|x| x.is_finite())
+            .fold(1e-9f64, f64::max)
+            * 1.15;
+        let mut chart = ChartBuilder::on(&root)
+            .caption(format!("Unfolded SFS: simulated ({replicates} replicates) against predicted"), ("sans-serif", 18))
+            .margin(12)
+            .x_label_area_size(45)
+            .y_label_area_size(60)
+            .build_cartesian_2d(0.5f64..k as f64 + 0.5, 0f64..top)
+            .map_err(|e| err(&e))?;
+        chart
+            .configure_mesh()
+            .x_labels(k.min(20))
+            .x_label_formatter(&|x| if x.fract() == 0.0 { format!("{x:.0}") } else { String::new() })
+            .x_desc("derived-allele count i (xi_i)")
+            .y_desc("expected sites per replicate (summed over loci)")
+            .draw()
+            .map_err(|e| err(&e))?;
+        chart
+            .draw_series(simulated.iter().enumerate().map(|(i, s)| {
+                let x = (i + 1) as f64;
+                PathElement::new([(x, s.1), (x, s.2)], BLACK.stroke_width(1))
+            }))
+            .map_err(|e| err(&e))?
+            .label("95% interval of the simulated mean")
+            .legend(|(x, y)| PathElement::new([(x + 9, y - 6), (x + 9, y + 6)], BLACK.stroke_width(1)));
+        chart
+            .draw_series(
+                simulated.iter().enumerate().map(|(i, s)| Circle::new(((i + 1) as f64, s.0), 4, BLUE.filled())),
+            )
+            .map_err(|e| err(&e))?
+            .label("simulated mean")
+            .legend(|(x, y)| Circle::new((x + 9, y), 4, BLUE.filled()));
+        if let Some((p, label)) = predicted {
+            chart
+                .draw_series(LineSeries::new(
+                    p.iter().enumerate().map(|(i, &v)| ((i + 1) as f64, v)),
+                    RED.stroke_width(2),
+                ))
+                .map_err(|e| err(&e))?
+                .label(format!("predicted ({label})"))
+                .legend(|(x, y)| PathElement::new([(x, y), (x + 18, y)], RED.stroke_width(2)));
+        }
+        chart
+            .configure_series_labels()
+            .position(SeriesLabelPosition::UpperRight)
+            .background_style(WHITE.mix(0.85))
+            .border_style(BLACK)
+            .draw()
+            .map_err(|e| err(&e))?;
+        root.present().map_err(|e| err(&e))?;
+    }
+    Ok(svg)
+}
+
+/// Log-log chart frame shared by the families figures.
+fn loglog_bounds(
+    xs: impl Iterator<Item = f64> + Clone,
+    ys: impl Iterator<Item = f64> + Clone,
+) -> ((f64, f64), (f64, f64)) {
+    let pos = |it: &mut dyn Iterator<Item = f64>| {
+        it.filter(|v| v.is_finite() && *v > 0.0)
+            .fold((f64::INFINITY, f64::NEG_INFINITY), |(a, b), v| (a.min(v), b.max(v)))
+    };
+    let fix = |(lo, hi): (f64, f64)| {
+        if lo.is_finite() && hi > lo {
+            (lo / 1.3, hi * 1.3)
+        } else if lo.is_finite() {
+            (lo / 2.0, lo * 2.0)
+        } else {
+            (0.1, 10.0)
+        }
+    };
+    (fix(pos(&mut xs.clone())), fix(pos(&mut ys.clone())))
+}
+
+/// A fitted power law on a log-log figure: slope, a point it passes through, the range of
+/// x it was fitted on, its legend.
+type PowerLawFit = (f64, (f64, f64), [f64; 2], String);
+
+/// One families figure: simulated points (with ±2 standard errors) and a predicted line, on
+/// log-log axes. Points and predictions that are not positive cannot be drawn there and are
+/// left out. `fit` adds a fitted power law (slope, through a point) with its own legend.
+#[allow(clippy::too_many_arguments)]
+fn loglog_figure(
+    title: &str,
+    x_desc: &str,
+    y_desc: &str,
+    simulated: &[(f64, f64, Option<f64>)],
+    predicted: &[(f64, f64)],
+    predicted_label: &str,
+    fit: Option<PowerLawFit>,
+    y_range: Option<(f64, f64)>,
+) -> anyhow::Result<String> {
+    let mut svg = String::new();
+    {
+        let err = |e: &dyn std::fmt::Display| anyhow::anyhow!("drawing {title}: {e}");
+        let root = SVGBackend::with_string(&mut svg, (720, 480)).into_drawing_area();
+        root.fill(&WHITE).map_err(|e| err(&e))?;
+        let xs = simulated.iter().map(|p| p.0).chain(predicted.iter().map(|p| p.0));
+        let ys = simulated.iter().map(|p| p.1).chain(predicted.iter().map(|p| p.1));
+        let ((x0, x1), (y0, y1)) = loglog_bounds(xs, ys);
+        let (y0, y1) = y_range.unwrap_or((y0, y1));
+        let mut chart = ChartBuilder::on(&root)
+            .caption(title, ("sans-serif", 18))
+            .margin(12)
+            .x_label_area_size(45)
+            .y_label_area_size(70)
+            .build_cartesian_2d((x0..x1).log_scale(), (y0..y1).log_scale())
+            .map_err(|e| err(&e))?;
+        chart
+            .configure_mesh()
+            .x_label_formatter(&|x| sig(*x, 3))
+            .y_label_formatter(&|y| sig(*y, 3))
+            .x_desc(x_desc)
+            .y_desc(y_desc)
+            .draw()
+            .map_err(|e| err(&e))?;
+        let inside = |v: f64| v.is_finite() && v > 0.0;
+        let shown: Vec<&(f64, f64, Option<f64>)> = simulated.iter().filter(|p| inside(p.0) && inside(p.1)).collect();
+        chart
+            .draw_series(shown.iter().filter_map(|p| {
+                let se = p.2?;
+                let lo = (p.1 - 2.0 * se).max(y0);
+                Some(PathElement::new([(p.0, lo), (p.0, (p.1 + 2.0 * se).min(y1))], BLACK.stroke_width(1)))
+            }))
+            .map_err(|e| err(&e))?
+            .label("± 2 standard errors")
+            .legend(|(x, y)| PathElement::new([(x + 9, y - 6), (x + 9, y + 6)], BLACK.stroke_width(1)));
+        chart
+            .draw_series(shown.iter().map(|p| Circle::new((p.0, p.1), 3, BLUE.filled())))
+            .map_err(|e| err(&e))?
+            .label("simulated")
+            .legend(|(x, y)| Circle::new((x + 9, y), 3, BLUE.filled()));
+        let line: Vec<(f64, f64)> = predicted.iter().copied().filter(|p| inside(p.0) && inside(p.1)).collect();
+        if !line.is_empty() {
+            chart
+                .draw_series(LineSeries::new(line, RED.stroke_width(2)))
+                .map_err(|e| err(&e))?
+                .label(predicted_label)
+                .legend(|(x, y)| PathElement::new([(x, y), (x + 18, y)], RED.stroke_width(2)));
+        }
+        if let Some((slope, (mx, my), [m0, m1], label)) = fit {
+            let at = |m: f64| my * (m / mx).powf(slope);
+            chart
+                .draw_series(DashedLineSeries::new([(m0, at(m0)), (m1, at(m1))], 8, 4, BLACK.stroke_width(2)))
+                .map_err(|e| err(&e))?
+                .label(label)
+                .legend(|(x, y)| PathElement::new([(x, y), (x + 18, y)], BLACK.stroke_width(2)));
+        }
+        chart
+            .configure_series_labels()
+            .position(SeriesLabelPosition::LowerRight)
+            .background_style(WHITE.mix(0.85))
+            .border_style(BLACK)
+            .draw()
+            .map_err(|e| err(&e))?;
+        root.present().map_err(|e| err(&e))?;
+    }
+    Ok(svg)
+}
+
+/// P(two members of the block l generations apart are related) against l, log-log, with the
+/// renewal prediction. `simulated`: (lag, fraction, standard error); `predicted`: (lag, P).
+pub fn relatedness_by_lag(simulated: &[(f64, f64, Option<f64>)], predicted: &[(f64, f64)]) -> anyhow::Result<String> {
+    loglog_figure(
+        "Relatedness by lag in the block",
+        "lag l (generations)",
+        "P(related within the horizon)",
+        simulated,
+        predicted,
+        "predicted (renewal theory)",
+        None,
+        None,
+    )
+}
+
+/// P(D <= x l | related) for the MRCA depth D of related pairs, per x, pooled as rows of
+/// (x, simulated CDF at the largest lag, se), against the limit law (x, CDF).
+pub fn mrca_depth(lag: usize, simulated: &[(f64, f64, Option<f64>)], limit: &[(f64, f64)]) -> anyhow::Result<String> {
+    loglog_figure(
+        &format!("MRCA depth of related pairs at lag {lag} against its limit"),
+        "x = depth / lag",
+        "P(depth <= x lag | related)",
+        simulated,
+        limit,
+        "limit law (BetaPrime(alpha, 1 - 2 alpha))",
+        None,
+        // A CDF: two decades below 1 keep the ticks readable.
+        Some((0.01, 1.1)),
+    )
+}
+
+/// Var(S_m) of the coloured-family sums against m, log-log, with the exact variance and the
+/// fitted slope 2H (and H predicted).
+pub fn variance_growth(
+    simulated: &[(f64, f64, Option<f64>)],
+    exact: &[(f64, f64)],
+    fit: Option<(f64, [f64; 2])>,
+    predicted_h: Option<f64>,
+) -> anyhow::Result<String> {
+    let fit = fit.and_then(|(two_h, [m0, m1])| {
+        // The fitted line passes through the geometric mean of the fitted points.
+        let pts: Vec<&(f64, f64, Option<f64>)> =
+            simulated.iter().filter(|p| p.0 >= m0 && p.0 <= m1 && p.1 > 0.0).collect();
+        if pts.is_empty() {
+            return None;
+        }
+        let k = pts.len() as f64;
+        let gx = (pts.iter().map(|p| p.0.ln()).sum::<f64>() / k).exp();
+        let gy = (pts.iter().map(|p| p.1.ln()).sum::<f64>() / k).exp();
+        let pred = predicted_h.map_or(String::new(), |h| format!(", predicted 2H = {}", sig(2.0 * h, 3)));
+        Some((two_h, (gx, gy), [m0, m1], format!("fitted slope 2H = {}{pred}", sig(two_h, 3))))
+    });
+    loglog_figure(
+        "Variance of the coloured-family sum S_m against m",
+        "m (individuals summed)",
+        "Var(S_m)",
+        simulated,
+        exact,
+        "exact Var(S_m)",
+        fit,
+        None,
+    )
 }
