@@ -41,8 +41,9 @@ pub enum Error {
     /// The engine asked for cannot run the scenario.
     #[error(transparent)]
     Engine(#[from] ApproxError),
-    /// The mutations of a replicate could not be placed.
-    #[error("{origin}: replicate {replicate}: {source}")]
+    /// The mutations of a replicate could not be placed (the cause is the `source`, as in
+    /// the command's message `origin: replicate i: cause`).
+    #[error("{origin}: replicate {replicate}")]
     Mutation {
         /// Where the scenario came from.
         origin: String,

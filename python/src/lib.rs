@@ -24,9 +24,19 @@ pyo3::create_exception!(
      or column (and line where known) and what is allowed."
 );
 
-/// Bad input, with the library's message (the command prints the same after `error: `).
-fn input_error(e: impl std::fmt::Display) -> PyErr {
-    InputError::new_err(format!("{e:#}"))
+/// An error's message with its causes, as the command prints it after `error: `.
+fn message<E: std::error::Error + Send + Sync + 'static>(e: E) -> String {
+    format!("{:#}", anyhow::Error::new(e))
+}
+
+/// Bad input, with the library's message.
+fn input_error<E: std::error::Error + Send + Sync + 'static>(e: E) -> PyErr {
+    InputError::new_err(message(e))
+}
+
+/// Bad input found here (arguments the command's flag parser refuses).
+fn input_message(text: String) -> PyErr {
+    InputError::new_err(text)
 }
 
 /// The engine names of `--engine`, mapped to the library's choice (the one place that knows).
@@ -60,7 +70,7 @@ fn py_to_json(value: &Bound<'_, PyAny>, path: &str) -> PyResult<serde_json::Valu
         let mut map = serde_json::Map::new();
         for (k, v) in d.iter() {
             let key: String = k.extract().map_err(|_| {
-                input_error(format!(
+                input_message(format!(
                     "<dict>: key {} at `{path}` is not a string",
                     k.repr().map_or_else(|_| "?".into(), |r| r.to_string())
                 ))
@@ -98,7 +108,7 @@ fn py_to_json(value: &Bound<'_, PyAny>, path: &str) -> PyResult<serde_json::Valu
         }
         return Ok(Value::Array(out));
     }
-    Err(input_error(format!(
+    Err(input_message(format!(
         "<dict>: `{path}` holds a {}, which a scenario cannot: use numbers, strings, lists and dicts",
         value.get_type().name()?
     )))
@@ -380,7 +390,7 @@ fn simulation_error(py: Python<'_>, e: replicates::Error) -> PyErr {
         // The signal handler's own exception, when Python raised one.
         return PyErr::take(py).unwrap_or_else(|| PyKeyboardInterrupt::new_err(e.to_string()));
     }
-    if e.is_bad_input() { input_error(e) } else { PyRuntimeError::new_err(format!("{e:#}")) }
+    if e.is_bad_input() { input_error(e) } else { PyRuntimeError::new_err(message(e)) }
 }
 
 /// Runs the replicates of `scenario` and returns them as a `Run`.
@@ -487,12 +497,12 @@ fn observe<'py>(
 ) -> PyResult<Bound<'py, PyAny>> {
     use seedline::observed::{self, Missing};
     if windows.is_some() && regions.is_some() {
-        return Err(input_error("windows and regions cannot be used together: give one way to cut the loci"));
+        return Err(input_message("windows and regions cannot be used together: give one way to cut the loci".into()));
     }
     let missing = match (project, drop_missing) {
         (Some(_), true) => {
-            return Err(input_error(
-                "project and drop_missing cannot be used together: give one treatment of missing calls",
+            return Err(input_message(
+                "project and drop_missing cannot be used together: give one treatment of missing calls".into(),
             ));
         }
         (Some(m), false) => Missing::Project(m),

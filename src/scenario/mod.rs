@@ -67,12 +67,12 @@ pub enum Error {
         message: String,
     },
     /// The file could not be read.
-    #[error("cannot read scenario file {origin}: {source}")]
+    #[error("cannot read scenario file {origin}: {reason}")]
     Read {
         /// File name.
         origin: String,
-        /// Why.
-        source: std::io::Error,
+        /// Why (in the message, so not a `source`: the chain would say it twice).
+        reason: std::io::Error,
     },
     /// The file parsed but broke the rules.
     #[error("{}", render_issues(origin, issues))]
@@ -280,7 +280,7 @@ pub fn read_file(path: &std::path::Path) -> Result<(String, String), Error> {
     let origin = path.display().to_string();
     match std::fs::read_to_string(path) {
         Ok(text) => Ok((text, origin)),
-        Err(source) => Err(Error::Read { origin, source }),
+        Err(reason) => Err(Error::Read { origin, reason }),
     }
 }
 
