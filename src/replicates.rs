@@ -8,9 +8,8 @@
 //! [`genealogy`] draws it again from the replicate's own random stream, which gives the
 //! genealogy of the batch because replicate i depends only on the seed and i.
 
-use crate::approx::{ApproxError, ApproxModel, EngineChoice, EngineDecision, EngineKind};
 use crate::batch::{self, BatchConfig, Keep, LocusOutcome};
-use crate::engine::Simulator;
+use crate::engine::{Ancestry, Engine, EngineChoice, EngineDecision, Scratch};
 use crate::genealogy::Genealogy;
 use crate::scenario::Scenario;
 
@@ -40,7 +39,7 @@ pub struct Replicates {
 pub enum Error {
     /// The engine asked for cannot run the scenario.
     #[error(transparent)]
-    Engine(#[from] ApproxError),
+    Engine(#[from] crate::engine::Error),
     /// The mutations of a replicate could not be placed (the cause is the `source`, as in
     /// the command's message `origin: replicate i: cause`).
     #[error("{origin}: replicate {replicate}")]
@@ -84,14 +83,6 @@ pub fn replicate_sfs(loci: &[LocusOutcome], n: usize) -> Vec<u64> {
     xi
 }
 
-/// The approximate model when `decision` picked it (built once per run).
-fn approx_model<'a>(scenario: &'a Scenario, decision: &EngineDecision) -> Result<Option<ApproxModel<'a>>, Error> {
-    Ok(match decision.kind {
-        EngineKind::Approx => Some(ApproxModel::new(scenario)?),
-        EngineKind::Exact => None,
-    })
-}
-
 /// Runs every replicate of `scenario` (its seed and number of replicates) with the engine
 /// `choice` resolves to, and keeps what `simulate` would write to `replicates.tsv`, `sfs.tsv`
 /// and `trees.nwk`. `origin` names the scenario in messages. `progress` is called once per
@@ -105,8 +96,7 @@ pub fn simulate(
     progress: &(dyn Fn() + Sync),
     interrupted: &dyn Fn() -> bool,
 ) -> Result<Replicates, Error> {
-    let engine = crate::approx::resolve(choice, scenario)?;
-    let approx = approx_model(scenario, &engine)?;
+    let engine = Engine::new(scenario, choice)?;
     let labels: Vec<String> = scenario.samples().iter().map(|s| s.label.clone()).collect();
     let n = scenario.samples().len();
     let n_demes = scenario.demes().len();
@@ -124,8 +114,8 @@ pub fn simulate(
         scenario,
         &reps,
         config,
-        |sim, sc, rep, _| {
-            let r = batch::simulate_replicate(sim, sc, &key, rep, keep, &labels, approx.as_ref());
+        |scratch, _, rep, _| {
+            let r = batch::simulate_replicate(&engine, scratch, &key, rep, keep, &labels);
             progress();
             r
         },
@@ -157,7 +147,7 @@ pub fn simulate(
             other => Error::Batch(other),
         });
     }
-    Ok(Replicates { columns, values, sfs, trees, forests, engine })
+    Ok(Replicates { columns, values, sfs, trees, forests, engine: engine.decision().clone() })
 }
 
 /// The genealogy of locus `locus` (from 0) of replicate `replicate` of `scenario` run with
@@ -170,20 +160,13 @@ pub fn genealogy(
     replicate: u64,
     locus: u64,
 ) -> Result<Vec<(u64, u64, Genealogy)>, Error> {
-    let engine = crate::approx::resolve(choice, scenario)?;
-    let approx = approx_model(scenario, &engine)?;
+    let engine = Engine::new(scenario, choice)?;
     let mut rng = batch::locus_rng(&batch::master_key(scenario.seed()), replicate, locus);
     let sites = scenario.locus_sites(locus).unwrap_or(1);
     // The first draws of the locus's stream, as in `batch::simulate_replicate`.
-    Ok(match (scenario.locus_recombination(locus), &approx) {
-        (Some(config), _) => crate::arg::ArgSimulator::new()
-            .simulate(scenario, &config, &mut rng)
-            .trees()
-            .iter()
-            .map(|t| (t.left(), t.right(), t.genealogy().clone()))
-            .collect(),
-        (None, Some(model)) => vec![(0, sites, model.simulate(&mut rng))],
-        (None, None) => vec![(0, sites, Simulator::new().simulate(scenario, &mut rng))],
+    Ok(match engine.simulate(&mut Scratch::default(), locus, &mut rng) {
+        Ancestry::Sequence(arg) => arg.trees().iter().map(|t| (t.left(), t.right(), t.genealogy().clone())).collect(),
+        Ancestry::Tree(g) => vec![(0, sites, g)],
     })
 }
 

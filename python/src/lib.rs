@@ -8,8 +8,8 @@ use numpy::{PyArray1, PyArray2};
 use pyo3::exceptions::{PyIndexError, PyKeyboardInterrupt, PyRuntimeError, PyUserWarning, PyValueError};
 use pyo3::prelude::*;
 use pyo3::types::{PyDict, PyFloat, PyList, PyString};
-use seedline::approx::{EngineChoice, EngineKind};
 use seedline::batch::BatchConfig;
+use seedline::engine::{EngineChoice, EngineKind};
 use seedline::replicates::{self, NodeTable, Replicates};
 use seedline::scenario::{self as sc, RawScenario};
 use std::ffi::CString;
@@ -42,14 +42,6 @@ fn input_message(text: String) -> PyErr {
 /// The engine names of `--engine`, mapped to the library's choice (the one place that knows).
 fn engine_choice(name: &str) -> PyResult<EngineChoice> {
     name.parse::<EngineChoice>().map_err(input_error)
-}
-
-/// The name of the engine that ran, as `summary.json` writes it.
-fn engine_name(kind: EngineKind) -> &'static str {
-    match kind {
-        EngineKind::Exact => "exact",
-        EngineKind::Approx => "approx",
-    }
 }
 
 /// A JSON text as Python objects (dicts, lists, floats, None).
@@ -259,7 +251,7 @@ struct Run {
     sfs: Option<Py<PyArray2<i64>>>,
     trees: Vec<Vec<String>>,
     forests: u64,
-    engine: &'static str,
+    engine: String,
     engine_reason: String,
     notes: Vec<String>,
 }
@@ -307,7 +299,7 @@ impl Run {
     /// The engine that ran: "exact" or "approx".
     #[getter]
     fn engine(&self) -> &str {
-        self.engine
+        &self.engine
     }
     /// Why that engine ran, in words (as `simulate` prints it).
     #[getter]
@@ -413,7 +405,7 @@ fn simulate(
     let holder = holder.get();
     let scenario = holder.with_run(replicates, seed)?;
     let choice = engine_choice(engine)?;
-    let decision = seedline::approx::resolve(choice, &scenario).map_err(input_error)?;
+    let decision = seedline::engine::resolve(choice, &scenario).map_err(input_error)?;
     let workers = if threads > 0 { threads } else { std::thread::available_parallelism().map_or(1, |n| n.get()) };
     let notes = seedline::cost::preflight(
         &scenario,
@@ -456,7 +448,7 @@ fn simulate(
         sfs,
         trees: run.trees,
         forests: run.forests,
-        engine: engine_name(run.engine.kind),
+        engine: run.engine.kind.to_string(),
         engine_reason: run.engine.reason,
         notes,
         scenario,
