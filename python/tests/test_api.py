@@ -213,3 +213,14 @@ def test_observe_matches_the_command_on_simulated_data(root, cli, tmp_path):
     with pytest.raises(seedline.InputError) as e:
         seedline.observe(vcf, samples=tmp_path / "absent.tsv")
     assert str(e.value) == error_of(cli, "observe", vcf, "--samples", tmp_path / "absent.tsv", "--out", tmp_path / "o")
+
+
+def test_the_issues_example_paths(root, cli, tmp_path):
+    """The example of the issue, on the files of examples/ when the checkout has them."""
+    vcf, smap = root / "examples" / "pond.vcf.gz", root / "examples" / "pond-map.tsv"
+    if not (vcf.exists() and smap.exists()):
+        pytest.skip("examples/pond.vcf.gz and examples/pond-map.tsv are not in this checkout")
+    ours = seedline.observe(vcf, samples=smap)
+    ours.pop("locus_arrays")
+    cli("observe", vcf, "--samples", smap, "--out", tmp_path / "obs")
+    assert ours == json.loads((tmp_path / "obs" / "observed.json").read_text())

@@ -85,3 +85,25 @@ def test_predict_gives_the_same_expectations():
     s = p["segregating_sites_mean"]
     value = s["value"] if isinstance(s, dict) else s
     assert abs(value - theta * a_n) / (theta * a_n) < 0.005, value
+
+
+def test_pi_under_geometric_dormancy_against_the_seed_bank_time_change():
+    # Source: Kaj, Krone & Lascoux (2001), J. Appl. Probab. 38:285 (pairs meet at rate
+    # 1/E[R]^2); exact for every N by the renewal argument of the project's theory reference
+    # (section 3.3): with mutations in every generation, dormant ones included,
+    # E[pi] = 2 N mu L E[R]^2 (support {1, 2, ...}, gcd 1). The standard error is estimated
+    # from the replicates.
+    for mean in [1.0, 2.0, 4.0]:
+        sc = seedline.Scenario.from_dict(
+            {
+                "seed": 3,
+                "replicates": 400,
+                "demes": [{"name": "pond", "size": 500, "dormancy": {"law": "geometric", "mean": mean}}],
+                "samples": [{"deme": "pond", "count": 10}],
+                "mutation": {"rate": 1e-6, "sites": 10000},
+            }
+        )
+        pi = seedline.simulate(sc, engine="exact", threads=2).statistics["pi"]
+        expected = 2 * 500 * 1e-6 * 10000 * mean**2
+        se = pi.std(ddof=1) / np.sqrt(len(pi))
+        assert abs(pi.mean() - expected) < 4 * se, (mean, pi.mean(), expected, se)
