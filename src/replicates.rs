@@ -166,6 +166,11 @@ pub fn genealogy(
     // The first draws of the locus's stream, as in `batch::simulate_replicate`.
     Ok(match engine.simulate(&mut Scratch::default(), locus, &mut rng) {
         Ancestry::Sequence(arg) => arg.trees().iter().map(|t| (t.left(), t.right(), t.genealogy().clone())).collect(),
+        Ancestry::Records(records) => {
+            let mut trees = Vec::new();
+            records.for_each_tree(|t, _| trees.push((t.left(), t.right(), t.genealogy().clone())));
+            trees
+        }
         Ancestry::Tree(g) => vec![(0, sites, g)],
     })
 }
@@ -246,6 +251,11 @@ mod tests {
             (40, "mutation: {rate: 0.00001, sites: 1000}\nloci: 3\n", EngineChoice::Exact),
             (40, "mutation: {rate: 0.00003, sites: 200}\nrecombination: {rate: 0.0005}\n", EngineChoice::Auto),
             (100_000, "mutation: {rate: 0.00000001, sites: 1000}\nloci: 2\n", EngineChoice::Approx),
+            (
+                100_000,
+                "mutation: {rate: 0.00000001, sites: 1000}\nrecombination: {rate: 0.00000002}\n",
+                EngineChoice::Approx,
+            ),
         ];
         for (size, extra, choice) in cases {
             let sc = scenario_of_size(size, extra);
