@@ -86,12 +86,13 @@ def test_errors_are_input_errors_with_the_commands_messages(cli, tmp_path):
         seedline.simulate(seedline.Scenario.from_yaml(good), engine="fastest")
     assert "unknown engine `fastest`" in str(e.value)
 
-    # The approximate engine refuses what it does not model, in the command's words.
-    linked = tmp_path / "linked.yaml"
-    linked.write_text(SMALL + "recombination: { rate: 1.0e-6 }\n")
+    # The approximate engine refuses a law without a coalescent limit, in the command's words.
+    heavy = tmp_path / "heavy.yaml"
+    heavy.write_text(SMALL.replace("law: geometric, mean: 3", "law: pareto, alpha: 0.5"))
     with pytest.raises(seedline.InputError) as e:
-        seedline.simulate(seedline.Scenario.from_yaml(linked), engine="approx")
-    assert str(e.value) == error_of(cli, "simulate", linked, "--engine", "approx", "--out", tmp_path / "o2")
+        seedline.simulate(seedline.Scenario.from_yaml(heavy), engine="approx")
+    assert str(e.value) == error_of(cli, "simulate", heavy, "--engine", "approx", "--out", tmp_path / "o2")
+    assert "infinite mean" in str(e.value)
 
     # Mutations that overflow the sites: the replicate is named.
     crowded = tmp_path / "crowded.yaml"
