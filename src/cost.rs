@@ -300,6 +300,11 @@ pub fn forest_note(scenario: &Scenario) -> Option<String> {
     ))
 }
 
+/// Memory available to this process, from /proc/meminfo (Linux); `None` elsewhere.
+pub fn available_memory() -> Option<u64> {
+    std::fs::read_to_string("/proc/meminfo").ok().and_then(|t| parse_meminfo(&t))
+}
+
 /// Bytes of memory available, from `MemAvailable` of `/proc/meminfo` text.
 pub fn parse_meminfo(text: &str) -> Option<u64> {
     let line = text.lines().find(|l| l.starts_with("MemAvailable:"))?;

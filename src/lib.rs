@@ -35,6 +35,7 @@ pub mod mutation;
 pub mod notation;
 pub mod null;
 pub mod observed;
+pub mod replicates;
 pub mod report;
 pub mod scenario;
 pub mod stats;

@@ -421,7 +421,7 @@ use seedline::report::progress::Progress;
 
 /// Memory available to this process, from /proc/meminfo (Linux); `None` elsewhere.
 fn available_memory() -> Option<u64> {
-    std::fs::read_to_string("/proc/meminfo").ok().and_then(|t| seedline::cost::parse_meminfo(&t))
+    seedline::cost::available_memory()
 }
 
 fn worker_threads(threads: usize) -> usize {
@@ -905,12 +905,7 @@ fn validate(files: &[PathBuf]) -> Result<()> {
 /// Reads the scenario file (or the embedded demo) into its raw form.
 fn load_raw(path: Option<&Path>) -> Result<(RawScenario, String)> {
     let (text, origin) = match path {
-        Some(p) => {
-            let origin = p.display().to_string();
-            let text =
-                std::fs::read_to_string(p).map_err(|e| BadInput(format!("cannot read scenario file {origin}: {e}")))?;
-            (text, origin)
-        }
+        Some(p) => scenario::read_file(p)?,
         None => (scenario::DEMO_YAML.to_string(), "<embedded demo>".to_string()),
     };
     Ok((scenario::parse_raw(&text, &origin)?, origin))

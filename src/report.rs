@@ -505,12 +505,7 @@ pub fn simulate_to_dir(
                 }
             }
             if let Some(f) = sfs.as_mut() {
-                let mut xi = vec![0u64; n.saturating_sub(1)];
-                for st in loci_out.iter().filter_map(|l| l.stats.as_ref()) {
-                    for (a, b) in xi.iter_mut().zip(&st.sfs) {
-                        *a += b;
-                    }
-                }
+                let xi = crate::replicates::replicate_sfs(&loci_out, n);
                 for (col, x) in sfs_acc.iter_mut().zip(&xi) {
                     col.push(Some(*x as f64));
                 }

@@ -66,6 +66,14 @@ pub enum Error {
         /// The parser's message, with line and column.
         message: String,
     },
+    /// The file could not be read.
+    #[error("cannot read scenario file {origin}: {reason}")]
+    Read {
+        /// File name.
+        origin: String,
+        /// Why (in the message, so not a `source`: the chain would say it twice).
+        reason: std::io::Error,
+    },
     /// The file parsed but broke the rules.
     #[error("{}", render_issues(origin, issues))]
     Invalid {
@@ -264,6 +272,15 @@ impl Scenario {
     /// Index of a deme by name.
     pub fn deme_index(&self, name: &str) -> Option<usize> {
         self.demes.iter().position(|d| d.name == name)
+    }
+}
+
+/// The text of a scenario file and its name for messages (the path as given).
+pub fn read_file(path: &std::path::Path) -> Result<(String, String), Error> {
+    let origin = path.display().to_string();
+    match std::fs::read_to_string(path) {
+        Ok(text) => Ok((text, origin)),
+        Err(reason) => Err(Error::Read { origin, reason }),
     }
 }
 
