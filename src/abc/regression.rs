@@ -180,7 +180,9 @@ pub fn estimate(prior: &Prior, theta: &[f64], x: &[Vec<f64>], w: &[f64]) -> Para
     let adjusted: Vec<f64> = adjusted_y.iter().map(|&v| prior.from_regression_scale(v)).collect();
     let wsum: f64 = w.iter().filter(|&&v| v > 0.0).sum();
     let mean = if wsum > 0.0 {
-        adjusted.iter().zip(w).filter(|(_, w)| **w > 0.0).map(|(a, w)| a * w).sum::<f64>() / wsum
+        // A mean of values inside the prior is inside it; rounding may leave it by an ulp.
+        let m = adjusted.iter().zip(w).filter(|(_, w)| **w > 0.0).map(|(a, w)| a * w).sum::<f64>() / wsum;
+        m.clamp(prior.low, prior.high)
     } else {
         f64::NAN
     };
