@@ -60,7 +60,7 @@ fn command_text(command: &str) -> CommandText {
         },
         "compare" => CommandText {
             title: "Model choice and parameter estimation (ABC)",
-            engine: "Hypotheses are simulated by the exact discrete-generation engine.",
+            engine: "Every draw from the priors runs on the engine that `--engine` (default auto) picks for it: exact, or a coalescent limit where one is accurate; how many draws ran on each, and why, is in compare.json (`hypotheses[].engine`) and printed by the command.",
             cautions: &[
                 "Posterior model probabilities compare only the hypotheses given, under their priors: a hypothesis that wins here may still fit the data badly (see the warnings when the observed value lies outside the accepted simulations).",
                 "ABC posteriors depend on the summary statistics, the tolerance and the priors; with few accepted simulations they are rough. The ± values are Monte-Carlo errors of the shares, not the error of the ABC approximation.",
@@ -70,7 +70,7 @@ fn command_text(command: &str) -> CommandText {
         },
         "design" => CommandText {
             title: "Power of candidate sampling designs",
-            engine: "Null and alternative datasets are simulated by the exact discrete-generation engine, on common random numbers for every design.",
+            engine: "Null and alternative datasets run on the engine that `--engine` (default auto) picks for each design and draw (exact, or a coalescent limit where one is accurate), on common random numbers for every design; the tally per design is in design.json and printed by the command.",
             cautions: &[
                 "Power is the share of alternative datasets whose empirical p-value is at or below the level; its 95% Wilson interval is Monte-Carlo error only. Designs whose intervals overlap are not shown to differ.",
                 "Power holds for the alternative and its priors as written: a different truth gives a different power.",
@@ -89,7 +89,7 @@ fn command_text(command: &str) -> CommandText {
         },
         "families" => CommandText {
             title: "Families of a block sample under heavy-tailed dormancy",
-            engine: "Block samples run on the exact discrete-generation engine (heavy tails have no coalescent limit).",
+            engine: "Block samples run on the engine that `--engine` picks (heavy tails have no coalescent limit, so auto keeps the exact engine); see families.json.",
             cautions: &[
                 "Lineages that have not met by the horizon stop there: relatedness and MRCA depths are conditional on that horizon.",
                 MC,
