@@ -101,6 +101,15 @@ pub(crate) struct Seg {
     pub(crate) base: f64,
 }
 
+impl crate::engine::arg::Piece for Seg {
+    fn span(&self) -> (u64, u64) {
+        (self.left, self.right)
+    }
+    fn cut(&self, left: u64, right: u64) -> Self {
+        Seg { left, right, ..*self }
+    }
+}
+
 /// A lineage that enters the process at `time` (a sample, or a lineage of the exact engine
 /// handed over by the hybrid).
 #[derive(Debug, Clone)]
@@ -687,29 +696,7 @@ impl ApproxArgSimulator {
         let mut a_part = std::mem::take(&mut self.out);
         let mut b_part = std::mem::take(&mut self.lins[b as usize].segs);
         a_part.clear();
-        let mut to_b = false;
-        let mut w = 0;
-        for s in &segs {
-            let mut left = s.left;
-            while w < self.switches.len() && self.switches[w] <= left {
-                to_b = !to_b;
-                w += 1;
-            }
-            while w < self.switches.len() && self.switches[w] < s.right {
-                let g = self.switches[w];
-                let piece = Seg { left, right: g, ..*s };
-                if to_b {
-                    b_part.push(piece)
-                } else {
-                    a_part.push(piece)
-                }
-                left = g;
-                to_b = !to_b;
-                w += 1;
-            }
-            let piece = Seg { left, right: s.right, ..*s };
-            if to_b { b_part.push(piece) } else { a_part.push(piece) }
-        }
+        crate::engine::arg::split_at_switches(&segs, &self.switches, &mut a_part, &mut b_part);
         let mut segs = segs;
         segs.clear();
         self.out = segs;

@@ -720,29 +720,7 @@ impl ArgSimulator {
         let mut a_part = Vec::new();
         let mut b_part = std::mem::take(&mut self.slab[b as usize]);
         let segs = std::mem::take(&mut self.slab[id as usize]);
-        let mut to_b = false;
-        let mut w = 0;
-        for s in &segs {
-            let mut left = s.left;
-            while w < self.switches.len() && self.switches[w] <= left {
-                to_b = !to_b;
-                w += 1;
-            }
-            while w < self.switches.len() && self.switches[w] < s.right {
-                let g = self.switches[w];
-                let piece = Seg { left, right: g, ..*s };
-                if to_b {
-                    b_part.push(piece)
-                } else {
-                    a_part.push(piece)
-                }
-                left = g;
-                to_b = !to_b;
-                w += 1;
-            }
-            let piece = Seg { left, right: s.right, ..*s };
-            if to_b { b_part.push(piece) } else { a_part.push(piece) }
-        }
+        split_at_switches(&segs, &self.switches, &mut a_part, &mut b_part);
         // The first carried site goes to parent A; parent B may still get nothing when the
         // switches cancel in pairs inside holes of the material.
         let split = !b_part.is_empty();
@@ -824,6 +802,51 @@ impl<'a> Model<'a> {
 
     fn size(&self, deme: usize, time: u64) -> u64 {
         self.constant_size[deme].unwrap_or_else(|| self.scenario.demes()[deme].size().at(time))
+    }
+}
+
+/// Sites `[left, right)` of a lineage's material, cut where a crossover switches parents.
+pub(crate) trait Piece: Copy {
+    /// The interval.
+    fn span(&self) -> (u64, u64);
+    /// The same material over `[left, right)`.
+    fn cut(&self, left: u64, right: u64) -> Self;
+}
+
+impl Piece for Seg {
+    fn span(&self) -> (u64, u64) {
+        (self.left, self.right)
+    }
+    fn cut(&self, left: u64, right: u64) -> Self {
+        Seg { left, right, ..*self }
+    }
+}
+
+/// Deals the material `segs` (sorted, disjoint) to two parents: sites before the first of
+/// the sorted `switches` go to `a`, and every switch changes parent. Shared by the exact and
+/// the approximate recombination engines.
+#[inline]
+pub(crate) fn split_at_switches<S: Piece>(segs: &[S], switches: &[u64], a: &mut Vec<S>, b: &mut Vec<S>) {
+    let mut to_b = false;
+    let mut w = 0;
+    for s in segs {
+        let (mut left, right) = s.span();
+        while w < switches.len() && switches[w] <= left {
+            to_b = !to_b;
+            w += 1;
+        }
+        while w < switches.len() && switches[w] < right {
+            let g = switches[w];
+            if to_b {
+                b.push(s.cut(left, g))
+            } else {
+                a.push(s.cut(left, g))
+            }
+            left = g;
+            to_b = !to_b;
+            w += 1;
+        }
+        if to_b { b.push(s.cut(left, right)) } else { a.push(s.cut(left, right)) }
     }
 }
 
