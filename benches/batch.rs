@@ -257,7 +257,7 @@ fn task() {
             engine,
         };
         let (w0, c0) = (Instant::now(), cpu_seconds());
-        let r = seedline::null::run(s, cfg, BatchConfig { threads: 2, chunk: 256 }, &dir, &|_| {}).unwrap();
+        let r = seedline::null::run(s, cfg, None, BatchConfig { threads: 2, chunk: 256 }, &dir, &|_| {}).unwrap();
         let (wall, cpu) = (w0.elapsed().as_secs_f64(), cpu_seconds() - c0);
         std::fs::remove_dir_all(&dir).unwrap();
         (wall, cpu, r.engine.reason)

@@ -695,6 +695,10 @@ pub struct BlockInfo {
 /// Everything a families run produced (`families.json`).
 #[derive(Debug, Clone, Serialize)]
 pub struct FamiliesReport {
+    /// The run that made this file: version, command, seed, inputs with checksums, settings
+    /// (set by the command; absent for library callers that give none).
+    #[serde(skip_serializing_if = "Option::is_none")]
+    pub run: Option<crate::report::record::RunRecord>,
     /// Versions and generator.
     pub provenance: Provenance,
     /// Where the scenario came from.
@@ -892,6 +896,7 @@ pub fn run(
     let demes = scenario.demes();
     let mean_families = rows.iter().map(|r| f64::from(r.families)).sum::<f64>() / kf;
     Ok(FamiliesReport {
+        run: None,
         provenance: Provenance::current(),
         scenario_file: scenario_file.to_string(),
         scenario_name: scenario.name().to_string(),

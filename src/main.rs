@@ -418,6 +418,8 @@ impl Ui {
 
 use seedline::report::output::Output;
 use seedline::report::progress::Progress;
+use seedline::report::record::{RunRecord, Seeds};
+use serde_json::json;
 
 /// Memory available to this process, from /proc/meminfo (Linux); `None` elsewhere.
 fn available_memory() -> Option<u64> {
@@ -439,7 +441,8 @@ fn run(cli: Cli) -> Result<()> {
     let ui = Ui { quiet: cli.quiet };
     match cli.command {
         Command::Simulate { scenario, run, out, force, vcf, diploid, bgzip, loci_table, ld, engine } => {
-            let (scenario, origin) = run.scenario(scenario.as_deref())?;
+            let scenario_path = scenario;
+            let (scenario, origin) = run.scenario(scenario_path.as_deref())?;
             if vcf && scenario.mutation().is_none() {
                 return Err(BadInput(format!(
                     "{origin}: --vcf needs a mutation model: add `mutation: {{rate: ..., sites: ...}}` to the scenario"
@@ -455,13 +458,17 @@ fn run(cli: Cli) -> Result<()> {
             let decision = seedline::engine::resolve(engine, &scenario)?;
             let exact = decision.kind == seedline::engine::EngineKind::Exact;
             preflight(&scenario, &origin, exact, run.threads, ui)?;
-            let output = Output::begin(&out, "simulate", force.force)?;
+            let settings = json!({"replicates": scenario.replicates(), "engine": engine, "vcf": vcf,
+                "diploid": diploid, "bgzip": bgzip, "loci_table": loci_table, "ld": ld});
+            let rec = scenario_record("simulate", scenario_path.as_deref(), settings)?;
+            let mut output = Output::begin(&out, "simulate", force.force)?;
+            output.set_run(rec.with_seed(Seeds::One(scenario.seed())));
             let bar = ui.progress("simulate", "replicates", scenario.replicates());
             let summary = seedline::report::simulate_to_dir(
                 &scenario,
                 &origin,
                 run.batch(),
-                seedline::report::SimulateOptions { vcf, diploid, bgzip, loci_table, engine, ld },
+                seedline::report::SimulateOptions { run: Some(rec), vcf, diploid, bgzip, loci_table, engine, ld },
                 output.staging(),
                 &|| bar.inc(1),
             )?;
@@ -478,7 +485,8 @@ fn run(cli: Cli) -> Result<()> {
             Ok(())
         }
         Command::Predict { scenario, json } => {
-            let (scenario, notes) = match scenario.as_deref() {
+            let scenario_path = scenario;
+            let (scenario, notes) = match scenario_path.as_deref() {
                 Some(p) => match read_input(p)? {
                     Input::Scenario(s, _) => (s, Vec::new()),
                     Input::Hypothesis(h) => {
@@ -504,7 +512,9 @@ fn run(cli: Cli) -> Result<()> {
             let mut p = seedline::theory::predict::predict(&scenario);
             p.notes.extend(notes);
             if json {
-                out!("{}\n", serde_json::to_string_pretty(&p.to_json())?)?;
+                let mut j = p.to_json();
+                j["run"] = serde_json::to_value(scenario_record("predict", scenario_path.as_deref(), json!({}))?)?;
+                out!("{}\n", serde_json::to_string_pretty(&j)?)?;
             } else {
                 out!("{}", seedline::report::render_prediction(&scenario, &p))?;
             }
@@ -518,8 +528,18 @@ fn run(cli: Cli) -> Result<()> {
                 (None, false) => Missing::Refuse,
             };
             let options = observed::Options::from_files(missing, windows, regions.as_deref(), mask.as_deref())?;
-            let output = Output::begin(&out, "observe", force.force)?;
-            let obs = observed::observe_files_with(&data, &samples, &options)?;
+            let mut output = Output::begin(&out, "observe", force.force)?;
+            let mut obs = observed::observe_files_with(&data, &samples, &options)?;
+            let files = [
+                ("data", Some(data.as_path())),
+                ("samples", Some(samples.as_path())),
+                ("regions", regions.as_deref()),
+                ("mask", mask.as_deref()),
+            ];
+            let settings = json!({"windows": windows, "project": project, "drop_missing": drop_missing});
+            let rec = record("observe", &files, settings)?;
+            output.set_run(rec.clone());
+            obs.run = Some(rec);
             observed::write_outputs(&obs, output.staging())
                 .with_context(|| format!("cannot write into {}", output.staging().display()))?;
             output.commit()?;
@@ -529,17 +549,23 @@ fn run(cli: Cli) -> Result<()> {
         }
         Command::Families { scenario, run, out, force, colours, engine } => {
             use seedline::families::{self, Colours, Options};
-            let (scenario, origin) = run.scenario(Some(&scenario))?;
+            let scenario_path = scenario;
+            let (scenario, origin) = run.scenario(Some(&scenario_path))?;
             preflight(&scenario, &origin, true, run.threads, ui)?;
             let colours = if colours == "normal" { Colours::Normal } else { Colours::Pm1 };
-            let output = Output::begin(&out, "families", force.force)?;
+            let mut output = Output::begin(&out, "families", force.force)?;
             let bar = ui.progress("families", "replicates", scenario.replicates());
             let config = run.batch();
             let options = Options { colours, engine, ..Options::default() };
-            let report = families::run(&scenario, &origin, config, &options, &|| bar.inc(1)).map_err(|e| {
+            let mut report = families::run(&scenario, &origin, config, &options, &|| bar.inc(1)).map_err(|e| {
                 if e.is_bad_input() { anyhow::Error::new(BadInput(format!("{origin}: {e}"))) } else { e.into() }
             })?;
             bar.finish();
+            let settings = json!({"replicates": scenario.replicates(), "colours": colours, "engine": engine});
+            let rec = record("families", &[("scenario", Some(&scenario_path))], settings)?
+                .with_seed(Seeds::One(scenario.seed()));
+            output.set_run(rec.clone());
+            report.run = Some(rec);
             families::write_to_dir(&report, output.staging())?;
             report_page(&output, "families")?;
             output.commit()?;
@@ -573,7 +599,8 @@ fn run(cli: Cli) -> Result<()> {
                 engine,
             };
             probe.check()?;
-            let (mut raw, origin) = load_raw(Some(&scenario))?;
+            let scenario_path = scenario;
+            let (mut raw, origin) = load_raw(Some(&scenario_path))?;
             raw.seed = seed.or(raw.seed);
             let observed = match &like {
                 Some(p) => Some(null::load_observed(p).map_err(|e| BadInput(format!("{e:#}")))?),
@@ -607,9 +634,13 @@ fn run(cli: Cli) -> Result<()> {
             preflight(&scenario, &origin, exact, threads, ui)?;
             null::claim_dir(&out, force.force)?;
             let cfg = null::NullConfig { count, ..probe };
+            // No shard, threads or --max-chunks: a merged null has the record of an unsharded one.
+            let settings =
+                json!({"replicates": replicates, "chunk": chunk, "engine": engine, "condition_on_s": condition_on_s});
+            let rec = record("null", &[("scenario", Some(&scenario_path)), ("like", like.as_deref())], settings)?;
             let bar = ui.progress("null", "replicates", cfg.shard_replicates());
-            let report =
-                null::run(&scenario, cfg, BatchConfig { threads, ..BatchConfig::default() }, &out, &|d| bar.set(d))?;
+            let batch = BatchConfig { threads, ..BatchConfig::default() };
+            let report = null::run(&scenario, cfg, Some(&rec), batch, &out, &|d| bar.set(d))?;
             bar.finish();
             for r in &report.redone {
                 note!("note: redone: {r}");
@@ -630,8 +661,10 @@ fn run(cli: Cli) -> Result<()> {
             Ok(())
         }
         Command::Merge { dirs, out, force } => {
-            let output = Output::begin(&out, "merge", force.force)?;
+            let mut output = Output::begin(&out, "merge", force.force)?;
             let n = seedline::null::merge(&dirs, output.staging())?;
+            let shards: Vec<(&str, Option<&Path>)> = dirs.iter().map(|d| ("run", Some(d.as_path()))).collect();
+            output.set_run(record("merge", &shards, json!({}))?);
             output.commit()?;
             out!("merged {n} replicates into {}\n", out.join("null.tsv").display())?;
             Ok(())
@@ -648,8 +681,13 @@ fn run(cli: Cli) -> Result<()> {
             use seedline::null as nl;
             let obs = nl::load_observed(&observed).map_err(|e| BadInput(format!("{e:#}")))?;
             let table = nl::load(&null)?;
-            let report = nl::test(&obs, &table)?;
-            let output = Output::begin(&out, "test", force.force)?;
+            let mut report = nl::test(&obs, &table)?;
+            let mut output = Output::begin(&out, "test", force.force)?;
+            // The seed is the null's: the p-values rest on its replicates.
+            let rec = record("test", &[("observed", Some(&observed)), ("null", Some(&null))], json!({}))?
+                .with_seed(Seeds::One(table.manifest.seed));
+            output.set_run(rec.clone());
+            report.run = Some(rec);
             nl::write_test(&report, &table, output.staging())?;
             report_page(&output, "test")?;
             output.commit()?;
@@ -691,12 +729,23 @@ fn run(cli: Cli) -> Result<()> {
             for h in &hyps {
                 preflight_hypothesis(h, threads, ui)?;
             }
-            let adjust = if adjust == "logistic" { compare::Adjust::Logistic } else { compare::Adjust::None };
+            let adjust_name = adjust;
+            let adjust = if adjust_name == "logistic" { compare::Adjust::Logistic } else { compare::Adjust::None };
+            let settings = json!({"simulations": simulations, "tolerance": tolerance, "statistics": statistics,
+                "adjust": adjust_name, "engine": engine});
+            let files: Vec<(&str, Option<&Path>)> = std::iter::once(("observed", Some(observed.as_path())))
+                .chain(hypotheses.iter().map(|h| ("hypothesis", Some(h.as_path()))))
+                .collect();
+            let rec = record("compare", &files, settings)?;
             let opts = compare::CompareOptions { simulations, tolerance, statistics, adjust, threads, engine };
-            let output = Output::begin(&out, "compare", force.force)?;
+            let mut output = Output::begin(&out, "compare", force.force)?;
             let bar = ui.progress("compare", "simulations", simulations.saturating_mul(hyps.len() as u64));
-            let result = compare::run(&obs, hyps, opts, &|| bar.inc(1))?;
+            let mut result = compare::run(&obs, hyps, opts, &|| bar.inc(1))?;
             bar.finish();
+            result.run = Some(rec);
+            if let Some(r) = result.run_record() {
+                output.set_run(r);
+            }
             compare::write(&result, output.staging())?;
             report_page(&output, "compare")?;
             output.commit()?;
@@ -758,11 +807,24 @@ fn run(cli: Cli) -> Result<()> {
                 layout,
                 engine,
             };
-            let output = Output::begin(&out, "design", force.force)?;
+            let settings = json!({"level": level, "target": target, "replicates": replicates,
+                "power_replicates": power_replicates, "statistics": opts.statistics, "engine": engine});
+            let files = [
+                ("null", Some(null.as_path())),
+                ("alternative", Some(alternative.as_path())),
+                ("designs", Some(designs.as_path())),
+                ("like", like.as_deref()),
+            ];
+            let rec = record("design", &files, settings)?;
+            let mut output = Output::begin(&out, "design", force.force)?;
             let total = replicates.saturating_add(power_replicates).saturating_mul(file.designs.len() as u64);
             let bar = ui.progress("design", "datasets", total);
-            let result = design::run(&h0, &h1, &file, opts, &|| bar.inc(1))?;
+            let mut result = design::run(&h0, &h1, &file, opts, &|| bar.inc(1))?;
             bar.finish();
+            result.run = Some(rec);
+            if let Some(r) = result.run_record() {
+                output.set_run(r);
+            }
             design::write(&result, output.staging())?;
             report_page(&output, "design")?;
             output.commit()?;
@@ -775,6 +837,31 @@ fn run(cli: Cli) -> Result<()> {
         }
         Command::Validate { files } => validate(&files),
     }
+}
+
+/// The run record of a command: the files it reads (size and CRC-32 as read now; a directory
+/// stands for the files in it) and the settings that shape its result. Every JSON the command
+/// writes carries it as `"run"`.
+fn record(command: &str, inputs: &[(&str, Option<&Path>)], settings: serde_json::Value) -> Result<RunRecord> {
+    let mut r = RunRecord::new(command);
+    for (role, path) in inputs {
+        if let Some(path) = path {
+            r = r.input(role, path).map_err(|e| BadInput(format!("cannot read {}: {e}", path.display())))?;
+        }
+    }
+    if let serde_json::Value::Object(map) = settings {
+        r.settings = map;
+    }
+    Ok(r)
+}
+
+/// [`record`] of a command on one scenario file, or on the embedded demo when none is given.
+fn scenario_record(command: &str, path: Option<&Path>, settings: serde_json::Value) -> Result<RunRecord> {
+    let r = record(command, &[("scenario", path)], settings)?;
+    Ok(match path {
+        Some(_) => r,
+        None => r.embedded("scenario", "<embedded demo>", scenario::DEMO_YAML.as_bytes()),
+    })
 }
 
 /// Writes `report.html` (the page of the run) into the staged output directory.

@@ -24,6 +24,7 @@
 use crate::batch::{self, BatchConfig, Keep};
 use crate::engine::{Engine, EngineChoice, EngineKind, Scratch};
 use crate::mutation::Count;
+use crate::report::record::{RunRecord, Seeds};
 use crate::report::{StreamFile, replicate_columns, replicate_values, write_atomic};
 use crate::scenario::Scenario;
 use anyhow::{Context, Result, bail, ensure};
@@ -62,6 +63,10 @@ pub struct Manifest {
     /// Why that engine, in words.
     #[serde(default)]
     pub engine_reason: String,
+    /// The run that began the null: version, command, seed, inputs with checksums, settings
+    /// (a merged null keeps the record of its first shard: the shards share every setting).
+    #[serde(default, skip_serializing_if = "Option::is_none")]
+    pub run: Option<RunRecord>,
 }
 
 fn exact_engine() -> EngineKind {
@@ -385,10 +390,12 @@ pub fn claim_dir(dir: &Path, force: bool) -> Result<(), crate::report::output::O
 }
 
 /// Runs (or resumes) a null run of `scenario` in `dir`. `progress(done)` is called with the
-/// number of replicates of the shard completed so far.
+/// number of replicates of the shard completed so far. `record` goes into a new `null.json`
+/// (its seed filled in); a resumed run keeps the record of the run that began it.
 pub fn run(
     scenario: &Scenario,
     cfg: NullConfig,
+    record: Option<&RunRecord>,
     batch_config: BatchConfig,
     dir: &Path,
     progress: &(dyn Fn(u64) + Sync),
@@ -420,6 +427,7 @@ pub fn run(
         columns: columns.clone(),
         engine: engine.kind(),
         engine_reason: engine.decision().reason.clone(),
+        run: record.map(|r| r.with_seed(Seeds::One(scenario.seed()))),
     };
     fs::create_dir_all(dir).with_context(|| format!("cannot create directory {}", dir.display()))?;
     let mpath = dir.join("null.json");
@@ -428,8 +436,11 @@ pub fn run(
         if old.engine != manifest.engine {
             return Err(EngineMismatch { dir: dir.to_path_buf(), was: old.engine, now: manifest.engine }.into());
         }
-        // The reason is information only: `auto` and `exact` may both run the exact engine.
-        if (Manifest { engine_reason: manifest.engine_reason.clone(), ..old.clone() }) != manifest {
+        // The reason and the record are information only: `auto` and `exact` may both run the
+        // exact engine, and a resumed run may be started from another directory.
+        if (Manifest { engine_reason: manifest.engine_reason.clone(), run: manifest.run.clone(), ..old.clone() })
+            != manifest
+        {
             let differs = old.differences(&manifest).join(", ");
             return Err(SettingsMismatch { dir: dir.to_path_buf(), differs }.into());
         }
@@ -446,7 +457,7 @@ pub fn run(
     }
     let ledger = read_ledger(dir);
     let key = batch::master_key(scenario.seed());
-    let labels: Vec<String> = scenario.samples().iter().map(|s| s.label.clone()).collect();
+    let labels: Vec<String> = scenario.samples().iter().map(|s| s.name()).collect();
     let n_demes = scenario.demes().len();
     let total_chunks = cfg.total_chunks();
     let mut report = NullReport {
@@ -1140,6 +1151,10 @@ fn locus_tests(observed: &ObservedData, null: &NullTable) -> Result<Vec<LocusTes
 /// The observed data against a null distribution: every statistic, and the SFS fit.
 #[derive(Debug, Clone, Serialize)]
 pub struct TestReport {
+    /// The run that made this file: version, command, seed, inputs with checksums, settings
+    /// (set by the command; absent for library callers that give none).
+    #[serde(skip_serializing_if = "Option::is_none")]
+    pub run: Option<crate::report::record::RunRecord>,
     /// One line per statistic present in both.
     pub statistics: Vec<StatTest>,
     /// Per-locus tests, with several loci in both the data and the null.
@@ -1303,7 +1318,7 @@ pub fn test(observed: &ObservedData, null: &NullTable) -> Result<TestReport> {
             sfs_compared = Some((kind.to_string(), obs, rows));
         }
     }
-    Ok(TestReport { statistics, loci, sfs_fit, sfs_compared, replicates: b, notes })
+    Ok(TestReport { run: None, statistics, loci, sfs_fit, sfs_compared, replicates: b, notes })
 }
 
 /// Renders the test table for the terminal.

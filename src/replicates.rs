@@ -97,7 +97,7 @@ pub fn simulate(
     interrupted: &dyn Fn() -> bool,
 ) -> Result<Replicates, Error> {
     let engine = Engine::new(scenario, choice)?;
-    let labels: Vec<String> = scenario.samples().iter().map(|s| s.label.clone()).collect();
+    let labels: Vec<String> = scenario.samples().iter().map(|s| s.name()).collect();
     let n = scenario.samples().len();
     let n_demes = scenario.demes().len();
     let total = scenario.replicates();
@@ -259,7 +259,7 @@ mod tests {
         ];
         for (size, extra, choice) in cases {
             let sc = scenario_of_size(size, extra);
-            let labels: Vec<String> = sc.samples().iter().map(|s| s.label.clone()).collect();
+            let labels: Vec<String> = sc.samples().iter().map(|s| s.name()).collect();
             let run = simulate(&sc, "inline", choice, BatchConfig { threads: 2, chunk: 5 }, &|| {}, &|| false).unwrap();
             let mut most_trees = 0;
             for rep in [0, 7, 11] {

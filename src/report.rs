@@ -8,6 +8,7 @@ pub mod figures;
 pub mod html;
 pub mod output;
 pub mod progress;
+pub mod record;
 
 use serde::Serialize;
 use std::fs;
@@ -46,7 +47,9 @@ pub struct ColumnSummary {
     pub sd: Option<f64>,
     /// Standard error of the mean, sd / sqrt(count).
     pub se: Option<f64>,
-    /// Quantiles at 2.5%, 25%, 50%, 75%, 97.5% (type 7, linear interpolation).
+    /// Quantiles at 2.5%, 25%, 50%, 75%, 97.5% (type 7, linear interpolation); in JSON an
+    /// object keyed by level (`"2.5%"`, ..., `"97.5%"`).
+    #[serde(serialize_with = "labelled_quantiles")]
     pub quantiles: Option<[f64; 5]>,
     /// Smallest value.
     pub min: Option<f64>,
@@ -56,6 +59,21 @@ pub struct ColumnSummary {
 
 /// Probabilities of [`ColumnSummary::quantiles`].
 pub const QUANTILE_LEVELS: [f64; 5] = [0.025, 0.25, 0.5, 0.75, 0.975];
+
+/// The JSON keys of [`QUANTILE_LEVELS`].
+pub const QUANTILE_LABELS: [&str; 5] = ["2.5%", "25%", "50%", "75%", "97.5%"];
+
+fn labelled_quantiles<S: serde::Serializer>(q: &Option<[f64; 5]>, s: S) -> Result<S::Ok, S::Error> {
+    match q {
+        Some(q) => s.collect_map(QUANTILE_LABELS.iter().zip(q)),
+        None => s.serialize_none(),
+    }
+}
+
+/// Serialises named columns as one JSON object keyed by name, in column order.
+fn columns_by_name<S: serde::Serializer>(cols: &[(String, ColumnSummary)], s: S) -> Result<S::Ok, S::Error> {
+    s.collect_map(cols.iter().map(|(name, c)| (name, c)))
+}
 
 impl ColumnSummary {
     /// Summarises the values; `None` entries count as missing.
@@ -205,6 +223,10 @@ impl Provenance {
 /// `summary.json` of a `simulate` run.
 #[derive(Debug, Clone, Serialize)]
 pub struct SimulationSummary {
+    /// The run that made this file: version, command, seed, inputs with checksums, settings
+    /// (set by the command; absent for library callers that give none).
+    #[serde(skip_serializing_if = "Option::is_none")]
+    pub run: Option<crate::report::record::RunRecord>,
     /// Versions and generator.
     pub provenance: Provenance,
     /// Where the scenario came from.
@@ -217,7 +239,9 @@ pub struct SimulationSummary {
     pub replicates: u64,
     /// Replicates that ended as a forest (no MRCA before the horizon or the founders).
     pub forests: u64,
-    /// Summaries of the numeric columns of `replicates.tsv`, in column order.
+    /// Summaries of the numeric columns of `replicates.tsv`: in JSON an object keyed by
+    /// column name, in column order.
+    #[serde(serialize_with = "columns_by_name")]
     pub columns: Vec<(String, ColumnSummary)>,
     /// What published theory predicts for this scenario (the `predict --json` form).
     pub prediction: serde_json::Value,
@@ -301,8 +325,10 @@ pub const SFS_FIGURE: &str = "sfs.svg";
 pub const VCF_SAMPLE_MAP: &str = "samples.tsv";
 
 /// Optional outputs of `simulate`.
-#[derive(Debug, Clone, Copy, Default)]
+#[derive(Debug, Clone, Default)]
 pub struct SimulateOptions {
+    /// The run record for `summary.json` (its seed is filled in from the scenario).
+    pub run: Option<record::RunRecord>,
     /// Write `vcf/replicate_<i>.vcf` for every replicate.
     pub vcf: bool,
     /// Pair consecutive haplotypes into diploid genotypes in the VCF.
@@ -439,7 +465,7 @@ pub fn simulate_to_dir(
         (false, _) => None,
     };
     fs::create_dir_all(dir).with_context(|| format!("creating output directory {}", dir.display()))?;
-    let labels: Vec<String> = scenario.samples().iter().map(|s| s.label.clone()).collect();
+    let labels: Vec<String> = scenario.samples().iter().map(|s| s.name()).collect();
     let n = scenario.samples().len();
     let n_demes = scenario.demes().len();
     let mutation = scenario.mutation().is_some();
@@ -539,6 +565,7 @@ pub fn simulate_to_dir(
     let prediction = crate::theory::predict::predict(scenario);
     let sfs_means: Vec<ColumnSummary> = sfs_acc.iter().map(|c| ColumnSummary::new(c)).collect();
     let summary = SimulationSummary {
+        run: options.run.as_ref().map(|r| r.with_seed(record::Seeds::One(scenario.seed()))),
         provenance: Provenance::current(),
         scenario_file: scenario_file.to_string(),
         scenario: scenario.normalized().clone(),

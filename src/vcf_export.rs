@@ -10,7 +10,7 @@
 //! (a seed from the bank); paired: `north_0+1_t0`.
 
 use crate::mutation::Mutations;
-use crate::scenario::{SampleKind, SampledIndividual};
+use crate::scenario::SampledIndividual;
 use noodles::vcf::{
     self,
     header::record::value::{
@@ -40,15 +40,10 @@ pub enum Error {
     Io(#[from] io::Error),
 }
 
-fn vcf_name(s: &SampledIndividual) -> String {
-    let seed = if s.kind == SampleKind::Seedbank { "_seed" } else { "" };
-    format!("{}_t{}{seed}", s.label, s.time)
-}
-
 /// The columns of the VCF: each entry lists the sample indices of one VCF sample.
 pub fn columns(samples: &[SampledIndividual], diploid: bool) -> Result<Vec<(String, Vec<usize>)>, Error> {
     if !diploid {
-        return Ok(samples.iter().enumerate().map(|(i, s)| (vcf_name(s), vec![i])).collect());
+        return Ok(samples.iter().enumerate().map(|(i, s)| (s.name(), vec![i])).collect());
     }
     let mut out = Vec::new();
     let mut i = 0;
@@ -57,10 +52,12 @@ pub fn columns(samples: &[SampledIndividual], diploid: bool) -> Result<Vec<(Stri
         match samples.get(i + 1) {
             Some(b) if b.deme == a.deme && b.time == a.time && b.kind == a.kind => {
                 let idx = b.label.rsplit('_').next().unwrap_or("");
-                out.push((format!("{}+{idx}_t{}", a.label, a.time), vec![i, i + 1]));
+                // `deme_i+j_tTIME[_seed]`: the haploid name of `a` with its partner's index.
+                let name = a.name().replacen(&a.label, &format!("{}+{idx}", a.label), 1);
+                out.push((name, vec![i, i + 1]));
                 i += 2;
             }
-            _ => return Err(Error::Unpaired { label: vcf_name(a) }),
+            _ => return Err(Error::Unpaired { label: a.name() }),
         }
     }
     Ok(out)

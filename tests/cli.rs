@@ -290,3 +290,70 @@ fn engines_for_a_recombining_locus_are_chosen_and_reported() {
     assert_eq!(o.status.code(), Some(2));
     assert!(String::from_utf8_lossy(&o.stderr).contains("exact, approx, auto or hybrid"));
 }
+
+/// Type-7 quantile of sorted data (Hyndman & Fan 1996, definition 7), written out here
+/// independently of the library.
+fn quantile7(sorted: &[f64], p: f64) -> f64 {
+    let h = (sorted.len() - 1) as f64 * p;
+    let (lo, frac) = (h.floor() as usize, h - h.floor());
+    if lo + 1 < sorted.len() { sorted[lo] + frac * (sorted[lo + 1] - sorted[lo]) } else { sorted[lo] }
+}
+
+#[test]
+fn summary_columns_are_keyed_by_name_and_leaves_carry_their_sampling_time() {
+    let d = tempdir("keyed");
+    let out = d.join("lake");
+    let scen = concat!(env!("CARGO_MANIFEST_DIR"), "/scenarios/lake-resting-eggs.yaml");
+    let o = seedline(&["simulate", scen, "--replicates", "12", "--vcf", "--out", out.to_str().unwrap()]);
+    assert!(o.status.success(), "{}", String::from_utf8_lossy(&o.stderr));
+    let table = std::fs::read_to_string(out.join("replicates.tsv")).unwrap();
+    let header: Vec<&str> = table.lines().next().unwrap().split('\t').collect();
+    let s: serde_json::Value =
+        serde_json::from_str(&std::fs::read_to_string(out.join("summary.json")).unwrap()).unwrap();
+    let cols = s["columns"].as_object().expect("columns is an object keyed by column name");
+    // Every numeric column of replicates.tsv, by name; its quantiles labelled by level and equal
+    // to the type-7 quantiles of the column as written.
+    for (j, name) in header.iter().enumerate().skip(1) {
+        let c = &cols[*name];
+        let mut xs: Vec<f64> = table.lines().skip(1).filter_map(|l| l.split('\t').nth(j)?.parse().ok()).collect();
+        if xs.is_empty() {
+            continue;
+        }
+        xs.sort_by(f64::total_cmp);
+        assert_eq!(c["count"], xs.len() as u64, "{name}");
+        for (label, p) in [("2.5%", 0.025), ("25%", 0.25), ("50%", 0.5), ("75%", 0.75), ("97.5%", 0.975)] {
+            let got = c["quantiles"][label].as_f64().unwrap_or_else(|| panic!("{name}: no quantile {label}"));
+            let want = quantile7(&xs, p);
+            assert!((got - want).abs() <= 1e-9 * want.abs().max(1.0), "{name} {label}: {got} vs {want}");
+        }
+    }
+    // Newick leaves are named as the VCF columns, with the generations ago of their sampling;
+    // the map written beside the VCFs gives the same time for each.
+    let map = std::fs::read_to_string(out.join("vcf/samples.tsv")).unwrap();
+    let times: std::collections::BTreeMap<String, u64> = map
+        .lines()
+        .skip(1)
+        .map(|l| {
+            let f: Vec<&str> = l.split('\t').collect();
+            (f[0].to_string(), f[2].parse().unwrap())
+        })
+        .collect();
+    assert_eq!(times.len(), 36);
+    let trees = std::fs::read_to_string(out.join("trees.nwk")).unwrap();
+    let first = trees.lines().next().unwrap();
+    let body = &first[first.find(']').unwrap() + 1..];
+    let leaves: Vec<&str> = body
+        .split(['(', ')', ','])
+        .map(|t| t.split(':').next().unwrap())
+        .filter(|t| !t.is_empty() && !t.ends_with(';'))
+        .collect();
+    assert_eq!(leaves.len(), 36, "{first}");
+    for leaf in leaves {
+        let t = times.get(leaf).unwrap_or_else(|| panic!("leaf {leaf} is no VCF sample: {:?}", times.keys()));
+        assert!(leaf.ends_with(&format!("_t{t}")), "{leaf} sampled {t} generations ago");
+    }
+    // 16 of today, 10 from each dated layer.
+    assert_eq!(times.values().filter(|&&t| t == 40).count(), 10);
+    assert_eq!(times.values().filter(|&&t| t == 120).count(), 10);
+    let _ = std::fs::remove_dir_all(&d);
+}

@@ -11,6 +11,10 @@ fn demo_predicts_pair_times_pi_and_fst() {
     let o = seedline(&["predict", "--json"]);
     assert!(o.status.success(), "{}", String::from_utf8_lossy(&o.stderr));
     let v: serde_json::Value = serde_json::from_slice(&o.stdout).unwrap();
+    // The run record names the embedded demo as the input and no seed (nothing is drawn).
+    assert_eq!(v["run"]["command"], "predict");
+    assert_eq!(v["run"]["inputs"][0]["path"], "<embedded demo>");
+    assert!(v["run"]["seed"].is_null());
     // The keys of earlier versions stay.
     for k in [
         "pair_time_mean",

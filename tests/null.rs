@@ -27,25 +27,32 @@ fn shards_merged_equal_the_unsharded_run_and_resume_equals_uninterrupted() {
     let s = Scenario::from_yaml_str(YAML, "t").unwrap();
     let d = tempdir("shards");
     let quiet = |_| {};
-    null::run(&s, cfg(150, (0, 1), None), BatchConfig::default(), &d.join("full"), &quiet).unwrap();
+    null::run(&s, cfg(150, (0, 1), None), None, BatchConfig::default(), &d.join("full"), &quiet).unwrap();
     for k in 0..3 {
-        null::run(&s, cfg(150, (k, 3), None), BatchConfig { threads: 1, chunk: 7 }, &d.join(format!("s{k}")), &quiet)
-            .unwrap();
+        null::run(
+            &s,
+            cfg(150, (k, 3), None),
+            None,
+            BatchConfig { threads: 1, chunk: 7 },
+            &d.join(format!("s{k}")),
+            &quiet,
+        )
+        .unwrap();
     }
     null::merge(&[d.join("full")], &d.join("m_full")).unwrap();
     null::merge(&[d.join("s2"), d.join("s0"), d.join("s1")], &d.join("m_shards")).unwrap();
     let a = std::fs::read(d.join("m_full/null.tsv")).unwrap();
     assert_eq!(a, std::fs::read(d.join("m_shards/null.tsv")).unwrap());
     // Interrupted after two chunks, then resumed: same bytes.
-    let r = null::run(&s, cfg(150, (0, 1), Some(2)), BatchConfig::default(), &d.join("part"), &quiet).unwrap();
+    let r = null::run(&s, cfg(150, (0, 1), Some(2)), None, BatchConfig::default(), &d.join("part"), &quiet).unwrap();
     assert_eq!((r.written_chunks, r.total_chunks), (2, 6));
-    let r = null::run(&s, cfg(150, (0, 1), None), BatchConfig::default(), &d.join("part"), &quiet).unwrap();
+    let r = null::run(&s, cfg(150, (0, 1), None), None, BatchConfig::default(), &d.join("part"), &quiet).unwrap();
     assert_eq!((r.resumed_chunks, r.written_chunks), (2, 4));
     null::merge(&[d.join("part")], &d.join("m_part")).unwrap();
     assert_eq!(a, std::fs::read(d.join("m_part/null.tsv")).unwrap());
     // An incomplete set of shards, and a mix of settings, are refused.
     assert!(null::merge(&[d.join("s0"), d.join("s1")], &d.join("bad")).is_err());
-    assert!(null::run(&s, cfg(151, (0, 1), None), BatchConfig::default(), &d.join("part"), &quiet).is_err());
+    assert!(null::run(&s, cfg(151, (0, 1), None), None, BatchConfig::default(), &d.join("part"), &quiet).is_err());
 }
 
 #[test]
@@ -56,20 +63,21 @@ fn the_engine_is_part_of_a_null_run_settings() {
     let d = tempdir("engine");
     let quiet = |_| {};
     let with = |engine| NullConfig { engine, ..cfg(50, (0, 1), Some(1)) };
-    let r = null::run(&large, with(EngineChoice::Exact), BatchConfig::default(), &d.join("x"), &quiet).unwrap();
+    let r = null::run(&large, with(EngineChoice::Exact), None, BatchConfig::default(), &d.join("x"), &quiet).unwrap();
     assert_eq!(r.engine.kind, seedline::engine::EngineKind::Exact);
     // Resuming with auto (which resolves to approx here) is refused and says why.
-    let e = null::run(&large, with(EngineChoice::Auto), BatchConfig::default(), &d.join("x"), &quiet).unwrap_err();
+    let e =
+        null::run(&large, with(EngineChoice::Auto), None, BatchConfig::default(), &d.join("x"), &quiet).unwrap_err();
     let m = e.downcast_ref::<null::EngineMismatch>().expect("an engine mismatch");
     assert_eq!((m.was, m.now), (seedline::engine::EngineKind::Exact, seedline::engine::EngineKind::Approx));
     assert!(e.to_string().contains("--engine exact"), "{e}");
     // The same engine reached another way (auto resolving to exact at N = 100) resumes.
     let small = Scenario::from_yaml_str(YAML, "t").unwrap();
-    null::run(&small, with(EngineChoice::Exact), BatchConfig::default(), &d.join("y"), &quiet).unwrap();
-    let r = null::run(&small, with(EngineChoice::Auto), BatchConfig::default(), &d.join("y"), &quiet).unwrap();
+    null::run(&small, with(EngineChoice::Exact), None, BatchConfig::default(), &d.join("y"), &quiet).unwrap();
+    let r = null::run(&small, with(EngineChoice::Auto), None, BatchConfig::default(), &d.join("y"), &quiet).unwrap();
     assert_eq!((r.resumed_chunks, r.engine.kind), (1, seedline::engine::EngineKind::Exact));
     // The manifest names the engine of the rows.
-    null::run(&large, with(EngineChoice::Auto), BatchConfig::default(), &d.join("z"), &quiet).unwrap();
+    null::run(&large, with(EngineChoice::Auto), None, BatchConfig::default(), &d.join("z"), &quiet).unwrap();
     let json: serde_json::Value =
         serde_json::from_str(&std::fs::read_to_string(d.join("z/null.json")).unwrap()).unwrap();
     assert_eq!(json["engine"], "approx");
@@ -172,12 +180,12 @@ fn p_values_are_uniform_when_the_data_come_from_the_null() {
     // 1.63/sqrt(n) at level 0.01, Smirnov's table, common practice).
     let s = Scenario::from_yaml_str(&YAML.replace("rate: 1.0e-6", "rate: 2.0e-6"), "t").unwrap();
     let d = tempdir("calib");
-    null::run(&s, cfg(399, (0, 1), None), BatchConfig::default(), &d.join("null"), &|_| {}).unwrap();
+    null::run(&s, cfg(399, (0, 1), None), None, BatchConfig::default(), &d.join("null"), &|_| {}).unwrap();
     let table = null::load(&d.join("null")).unwrap();
     let obs_s =
         Scenario::from_yaml_str(&YAML.replace("rate: 1.0e-6", "rate: 2.0e-6").replace("seed: 3", "seed: 99"), "o")
             .unwrap();
-    null::run(&obs_s, cfg(200, (0, 1), None), BatchConfig::default(), &d.join("obs"), &|_| {}).unwrap();
+    null::run(&obs_s, cfg(200, (0, 1), None), None, BatchConfig::default(), &d.join("obs"), &|_| {}).unwrap();
     let obs = null::load(&d.join("obs")).unwrap();
     let null_pi: Vec<f64> = table.column("pi").unwrap().into_iter().flatten().collect();
     let mut ps: Vec<f64> =

@@ -29,7 +29,7 @@ fn shard(s: &Scenario, dir: &Path, i: u64) {
         max_new_chunks: None,
         engine: EngineChoice::Exact,
     };
-    null::run(s, cfg, BatchConfig::default(), &dir.join(format!("shard_{i}")), &|_| {}).unwrap();
+    null::run(s, cfg, None, BatchConfig::default(), &dir.join(format!("shard_{i}")), &|_| {}).unwrap();
 }
 
 /// `seedline status ARGS` in `dir`: exit code and stdout + stderr.
@@ -99,7 +99,7 @@ fn status_reports_missing_damaged_and_absent_shards_and_clears_after_a_rerun() {
         max_new_chunks: None,
         engine: EngineChoice::Exact,
     };
-    null::run(&s, one, BatchConfig::default(), &d.join("one"), &|_| {}).unwrap();
+    null::run(&s, one, None, BatchConfig::default(), &d.join("one"), &|_| {}).unwrap();
     null::merge(&[d.join("one")], &d.join("one_merged")).unwrap();
     let shards: Vec<PathBuf> = (0..4).map(|i| d.join(format!("null/shard_{i}"))).collect();
     null::merge(&shards, &d.join("all")).unwrap();
@@ -122,7 +122,7 @@ fn status_reads_the_chunk_manifest_and_the_per_locus_files() {
         max_new_chunks: Some(2),
         engine: EngineChoice::Exact,
     };
-    null::run(&s, cfg, BatchConfig::default(), &d.join("run"), &|_| {}).unwrap();
+    null::run(&s, cfg, None, BatchConfig::default(), &d.join("run"), &|_| {}).unwrap();
     // Stopped after 2 of 3 chunks (--max-chunks): the last is missing.
     let st = null::status(&[d.join("run")]).unwrap();
     assert_eq!((st.runs[0].done_chunks, st.runs[0].total_chunks, st.runs[0].missing.clone()), (2, 3, vec![(2, 3)]));
@@ -144,7 +144,7 @@ fn status_reads_the_chunk_manifest_and_the_per_locus_files() {
     assert_eq!(code, Some(3), "{text}");
     // The same command redoes both and finishes.
     let cfg = NullConfig { max_new_chunks: None, ..cfg };
-    let r = null::run(&s, cfg, BatchConfig::default(), &d.join("run"), &|_| {}).unwrap();
+    let r = null::run(&s, cfg, None, BatchConfig::default(), &d.join("run"), &|_| {}).unwrap();
     assert_eq!((r.resumed_chunks, r.written_chunks, r.redone.len()), (0, 3, 2));
     assert_eq!(status(&d, &["run"]).0, Some(0));
 }
@@ -163,7 +163,7 @@ fn status_refuses_what_is_not_one_null_run() {
         max_new_chunks: None,
         engine: EngineChoice::Exact,
     };
-    null::run(&other, cfg, BatchConfig::default(), &d.join("shard_1"), &|_| {}).unwrap();
+    null::run(&other, cfg, None, BatchConfig::default(), &d.join("shard_1"), &|_| {}).unwrap();
     let (code, text) = status(&d, &["shard_0", "shard_1"]);
     assert_eq!(code, Some(2), "{text}");
     assert!(text.contains("shard_1") && text.contains("seed differ"), "{text}");

@@ -88,6 +88,13 @@ fn readme_tour_and_help_examples_run_verbatim() {
         assert!(tour.iter().any(|c| c.contains(must)), "the README tour has no `{must}` command: {tour:#?}");
     }
     run_all(&dir, &bin_dir, &tour);
+    // Every JSON the tour wrote names its run: version, command, seed, inputs, settings.
+    let checked = check_run_records(&dir, &dir);
+    for must in
+        ["summary.json", "observed.json", "null.json", "test.json", "compare.json", "design.json", "families.json"]
+    {
+        assert!(checked.iter().any(|f| f.ends_with(must)), "the tour wrote no {must} (checked: {checked:?})");
+    }
 
     let top = run_help(&bin, &["--help"]);
     let mut examples = help_examples(&top);
@@ -106,6 +113,68 @@ fn readme_tour_and_help_examples_run_verbatim() {
         assert!(dir.join(f).exists(), "{f} was not written");
     }
     let _ = std::fs::remove_dir_all(&dir);
+}
+
+/// CRC-32 (ISO-HDLC: reflected polynomial 0xEDB88320, initial and final XOR 0xFFFFFFFF), bit by
+/// bit as the standard defines it; independent of the table-driven code seedline uses.
+// Source: ISO 3309 / ITU-T V.42 CRC-32, as used by gzip (RFC 1952, section 8).
+fn crc32_reference(bytes: &[u8]) -> u32 {
+    let mut crc = 0xFFFF_FFFFu32;
+    for &b in bytes {
+        crc ^= u32::from(b);
+        for _ in 0..8 {
+            crc = if crc & 1 == 1 { (crc >> 1) ^ 0xEDB8_8320 } else { crc >> 1 };
+        }
+    }
+    !crc
+}
+
+/// Checks the `"run"` object of every JSON file under `root` (symbolic links not followed;
+/// hidden files skipped): the version, the command, a seed (null only for commands that draw
+/// nothing), the settings, and every input's size and CRC-32 as read now from `cwd`. Returns
+/// the files checked.
+fn check_run_records(root: &Path, cwd: &Path) -> Vec<PathBuf> {
+    let mut checked = Vec::new();
+    let mut stack = vec![root.to_path_buf()];
+    while let Some(d) = stack.pop() {
+        for e in std::fs::read_dir(&d).unwrap() {
+            let p = e.unwrap().path();
+            let meta = std::fs::symlink_metadata(&p).unwrap();
+            let name = p.file_name().unwrap().to_string_lossy().into_owned();
+            if meta.is_dir() {
+                stack.push(p);
+            } else if meta.is_file() && name.ends_with(".json") && !name.starts_with('.') {
+                let j: serde_json::Value = serde_json::from_str(&std::fs::read_to_string(&p).unwrap()).unwrap();
+                let run = &j["run"];
+                assert_eq!(run["seedline"], env!("CARGO_PKG_VERSION"), "{}: no run record: {j:#}", p.display());
+                let command = run["command"].as_str().unwrap_or_else(|| panic!("{}: no command", p.display()));
+                let seeded = !["observe", "merge", "predict"].contains(&command);
+                assert!(run.get("seed").is_some(), "{}: no seed", p.display());
+                assert_eq!(run["seed"].is_null(), !seeded, "{}: seed {} for {command}", p.display(), run["seed"]);
+                assert!(run["settings"].is_object(), "{}: no settings", p.display());
+                for i in run["inputs"].as_array().unwrap() {
+                    let f = match i["path"].as_str().unwrap() {
+                        // The embedded demo is scenarios/demo.yaml, compiled in.
+                        "<embedded demo>" => Path::new(ROOT).join("scenarios/demo.yaml"),
+                        path => cwd.join(path),
+                    };
+                    let bytes = std::fs::read(&f).unwrap_or_else(|e| panic!("{}: input {f:?}: {e}", p.display()));
+                    assert_eq!(i["bytes"], bytes.len() as u64, "{}: size of {f:?}", p.display());
+                    let crc = format!("{:08x}", crc32_reference(&bytes));
+                    assert_eq!(i["crc32"], crc.as_str(), "{}: CRC-32 of {f:?}", p.display());
+                }
+                checked.push(p);
+            }
+        }
+    }
+    checked
+}
+
+#[test]
+fn the_reference_crc_has_its_check_value() {
+    // Source: CRC-32/ISO-HDLC check value of "123456789" is 0xCBF43926 (catalogue of
+    // parametrised CRC algorithms, G. Cook).
+    assert_eq!(crc32_reference(b"123456789"), 0xCBF4_3926);
 }
 
 #[test]

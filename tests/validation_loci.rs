@@ -62,7 +62,7 @@ fn layout_null_is_calibrated() {
         max_new_chunks: None,
         engine: seedline::engine::EngineChoice::Exact,
     };
-    null::run(&s, cfg, BatchConfig::default(), &d.join("null"), &|_| {}).unwrap();
+    null::run(&s, cfg, None, BatchConfig::default(), &d.join("null"), &|_| {}).unwrap();
     let table = null::load(&d.join("null")).unwrap();
     assert!(!table.loci_files.is_empty(), "per-locus rows are written with several loci");
 

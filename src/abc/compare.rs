@@ -14,6 +14,7 @@ use super::regression::{self, ParameterPosterior};
 use super::rejection::{self, ModelShare};
 use super::{Error, Hypothesis, ObservedData, Simulated};
 use crate::report::fmt_num;
+use crate::report::record::{NamedSeed, Seeds};
 use std::fmt::Write as _;
 use std::path::Path;
 
@@ -346,9 +347,21 @@ pub fn warnings(
     out
 }
 
+impl CompareRun {
+    /// The run record with the master seed of every hypothesis.
+    pub fn run_record(&self) -> Option<crate::report::record::RunRecord> {
+        self.run.as_ref().map(|r| {
+            let each = self.hypotheses.iter().zip(&self.seeds);
+            r.with_seed(Seeds::Each(each.map(|(h, &seed)| NamedSeed { name: h.name.clone(), seed }).collect()))
+        })
+    }
+}
+
 /// A finished comparison: inputs, simulations and analysis.
 #[derive(Debug, Clone)]
 pub struct CompareRun {
+    /// The run record for `compare.json` (seeds filled in when written).
+    pub run: Option<crate::report::record::RunRecord>,
     /// Observed data file.
     pub observed_file: String,
     /// Hypotheses in command-line order.
@@ -482,6 +495,7 @@ pub fn run(
     let names: Vec<String> = hypotheses.iter().map(|h| h.name.clone()).collect();
     let warnings = warnings(&names, &statistics, &obs, &refs, &analysis);
     Ok(CompareRun {
+        run: None,
         observed_file: observed.origin.clone(),
         hypotheses,
         seeds,
@@ -562,7 +576,8 @@ pub fn write(run: &CompareRun, dir: &Path) -> Result<Vec<std::path::PathBuf>, Er
     }
     out.put(COMPARE_FILES[1], p.as_bytes())?;
     out.put(COMPARE_FILES[2], samples.as_bytes())?;
-    let json = serde_json::json!({
+    let record = run.run_record();
+    let mut json = serde_json::json!({
         "provenance": crate::report::Provenance::current(),
         "observed": run.observed_file,
         "statistics": run.statistics,
@@ -593,6 +608,9 @@ pub fn write(run: &CompareRun, dir: &Path) -> Result<Vec<std::path::PathBuf>, Er
         "notes": run.notes,
         "warnings": run.warnings,
     });
+    if let Some(r) = record {
+        json["run"] = serde_json::to_value(r).map_err(|e| Error::Options(e.to_string()))?;
+    }
     let text = serde_json::to_string_pretty(&json).map_err(|e| Error::Options(e.to_string()))?;
     out.put(COMPARE_FILES[3], text.as_bytes())?;
     let names: Vec<String> = run.hypotheses.iter().map(|h| h.name.clone()).collect();

@@ -23,6 +23,7 @@
 //! noise.
 
 use super::{Error, Hypothesis};
+use crate::report::record::{NamedSeed, Seeds};
 use crate::scenario::raw::RawSample;
 use serde::Deserialize;
 use serde_saphyr::Spanned;
@@ -320,6 +321,8 @@ impl Default for DesignOptions {
 /// The result of a design run.
 #[derive(Debug, Clone)]
 pub struct DesignRun {
+    /// The run record for `design.json` (seeds filled in when written).
+    pub run: Option<crate::report::record::RunRecord>,
     /// Null hypothesis file.
     pub null_file: String,
     /// Alternative hypothesis file.
@@ -343,6 +346,15 @@ pub struct DesignRun {
 }
 
 impl DesignRun {
+    /// The run record with the master seeds of the null and the alternative.
+    pub fn run_record(&self) -> Option<crate::report::record::RunRecord> {
+        self.run.as_ref().map(|r| {
+            let null = NamedSeed { name: "null".into(), seed: self.seeds.0 };
+            let alternative = NamedSeed { name: "alternative".into(), seed: self.seeds.1 };
+            r.with_seed(Seeds::Each(vec![null, alternative]))
+        })
+    }
+
     /// For each statistic, the cheapest design whose power estimate reaches the target
     /// (ties: the first in the file), or `None`.
     pub fn cheapest(&self) -> Vec<(String, Option<&PowerRow>)> {
@@ -468,6 +480,7 @@ pub fn run(
         rows.extend(powers(&d.name, cost, n, &statistics, &nsim, &asim, o.level));
     }
     Ok(DesignRun {
+        run: None,
         null_file: null.origin.clone(),
         alternative_file: alternative.origin.clone(),
         designs_file: designs.origin.clone(),
@@ -497,7 +510,8 @@ pub fn write(run: &DesignRun, dir: &Path) -> Result<Vec<std::path::PathBuf>, Err
         .into_iter()
         .map(|(s, r)| serde_json::json!({"statistic": s, "design": r.map(|r| r.design.clone()), "cost": r.map(|r| r.cost), "power": r.map(|r| r.power)}))
         .collect();
-    let json = serde_json::json!({
+    let record = run.run_record();
+    let mut json = serde_json::json!({
         "provenance": crate::report::Provenance::current(),
         "null": run.null_file,
         "alternative": run.alternative_file,
@@ -515,6 +529,9 @@ pub fn write(run: &DesignRun, dir: &Path) -> Result<Vec<std::path::PathBuf>, Err
         "engines": run.engines.iter().map(|(d, n, a)| serde_json::json!({"design": d, "null": n, "alternative": a})).collect::<Vec<_>>(),
         "notes": run.notes,
     });
+    if let Some(r) = record {
+        json["run"] = serde_json::to_value(r).map_err(|e| Error::Options(e.to_string()))?;
+    }
     let text = serde_json::to_string_pretty(&json).map_err(|e| Error::Options(e.to_string()))?;
     out.put(DESIGN_FILES[1], text.as_bytes())?;
     let mut names = run.statistics.clone();

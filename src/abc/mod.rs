@@ -437,7 +437,7 @@ pub fn simulate_hypothesis(
                         .join(", "),
                     source: e,
                 })?;
-                let labels: Vec<String> = scenario.samples().iter().map(|s| s.label.clone()).collect();
+                let labels: Vec<String> = scenario.samples().iter().map(|s| s.name()).collect();
                 let loci = simulate_replicate(&run, scratch, &key, i, Keep::default(), &labels)
                     .map_err(|source| Error::Simulation { file: h.origin.clone(), index: i, source })?;
                 progress();

@@ -479,6 +479,10 @@ fn serialize_values<S: serde::Serializer>(v: &[Option<f64>], s: S) -> Result<S::
 /// The result of [`observe`]; serialised as `observed.json`.
 #[derive(Debug, Clone, Serialize)]
 pub struct Observed {
+    /// The run that made this file: version, command, seed, inputs with checksums, settings
+    /// (set by the command; absent for library callers that give none).
+    #[serde(skip_serializing_if = "Option::is_none")]
+    pub run: Option<crate::report::record::RunRecord>,
     /// seedline version.
     pub seedline: &'static str,
     /// Input files.
@@ -1390,6 +1394,7 @@ impl<'a> Run<'a> {
             dropped_loci: self.dropped,
         };
         Ok(Observed {
+            run: None,
             seedline: env!("CARGO_PKG_VERSION"),
             inputs: Inputs {
                 vcf: vcf_name.to_string(),

@@ -228,8 +228,8 @@ fn input_files(args: &[String], out: &Path) -> Vec<(String, u64, String)> {
         if a.starts_with('-') || p == out || !p.is_file() || seen.iter().any(|(s, _, _)| s == a) {
             continue;
         }
-        if let Ok(bytes) = fs::read(p) {
-            seen.push((a.clone(), bytes.len() as u64, crate::report::output::crc32_hex(&bytes)));
+        if let Ok((bytes, crc)) = crate::report::record::crc32_file(p) {
+            seen.push((a.clone(), bytes, crc));
         }
     }
     seen

@@ -102,7 +102,7 @@ pub struct FileEntry {
 }
 
 /// The manifest [`MANIFEST`] of a run directory.
-#[derive(Debug, Clone, PartialEq, Eq, Serialize, Deserialize)]
+#[derive(Debug, Clone, PartialEq, Serialize, Deserialize)]
 pub struct RunManifest {
     /// The command that wrote the directory.
     pub command: String,
@@ -110,6 +110,9 @@ pub struct RunManifest {
     pub seedline: String,
     /// Every file written, sorted by name.
     pub files: Vec<FileEntry>,
+    /// The run that wrote them: seed, inputs with checksums, settings.
+    #[serde(default, skip_serializing_if = "Option::is_none")]
+    pub run: Option<super::record::RunRecord>,
 }
 
 #[derive(Debug, Default, Serialize, Deserialize)]
@@ -258,6 +261,7 @@ pub struct Output {
     previous: BTreeSet<String>,
     committed: bool,
     created: bool,
+    run: Option<super::record::RunRecord>,
 }
 
 impl Output {
@@ -283,6 +287,7 @@ impl Output {
             previous: claimed.ours,
             committed: false,
             created,
+            run: None,
         })
     }
 
@@ -294,6 +299,11 @@ impl Output {
     /// The final directory.
     pub fn dir(&self) -> &Path {
         &self.dir
+    }
+
+    /// Records the run in the manifest written by [`Output::commit`].
+    pub fn set_run(&mut self, run: super::record::RunRecord) {
+        self.run = Some(run);
     }
 
     /// Swaps the staged files in (see the module documentation); returns the manifest.
@@ -328,7 +338,12 @@ impl Output {
             }
             fs::rename(&from, &to).map_err(OutputError::io("move the finished file into", &to))?;
         }
-        let manifest = RunManifest { command: self.command.clone(), seedline: env!("CARGO_PKG_VERSION").into(), files };
+        let manifest = RunManifest {
+            command: self.command.clone(),
+            seedline: env!("CARGO_PKG_VERSION").into(),
+            files,
+            run: self.run.take(),
+        };
         let mpath = self.dir.join(MANIFEST);
         let text = serde_json::to_string_pretty(&manifest).expect("the manifest serialises");
         super::write_atomic(&mpath, text.as_bytes()).map_err(OutputError::io("write", &mpath))?;

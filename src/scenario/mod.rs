@@ -122,6 +122,16 @@ pub struct SampledIndividual {
     pub label: String,
 }
 
+impl SampledIndividual {
+    /// The name of this sequence in every output (Newick leaves, VCF columns):
+    /// `deme_index_tTIME`, plus `_seed` for a seed-bank sample, so that a leaf says when it
+    /// was sampled.
+    pub fn name(&self) -> String {
+        let seed = if self.kind == SampleKind::Seedbank { "_seed" } else { "" };
+        format!("{}_t{}{seed}", self.label, self.time)
+    }
+}
+
 /// A validated deme.
 #[derive(Debug, Clone)]
 pub struct Deme {
