@@ -138,7 +138,16 @@ pub fn render_report(dir: &Path, out: &Path, command: &str, argv: &[String]) -> 
         "<section id=\"inputs\"><h2>Inputs and settings</h2>\n<p>Command line:</p><pre>{}</pre>\n",
         escape(&shell_words(&line))
     );
-    let inputs = input_files(&argv[1.min(argv.len())..], out);
+    // The run record's inputs where the run wrote one, else the arguments that name files.
+    let recorded = json.as_ref().and_then(|j| j["run"]["inputs"].as_array()).map(|a| {
+        a.iter()
+            .map(|i| {
+                let path = scalar(&i["path"]).unwrap_or_default();
+                (path, i["bytes"].as_u64().unwrap_or(0), scalar(&i["crc32"]).unwrap_or_default())
+            })
+            .collect::<Vec<_>>()
+    });
+    let inputs = recorded.unwrap_or_else(|| input_files(&argv[1.min(argv.len())..], out));
     if !inputs.is_empty() {
         body.push_str("<p>Input files (as read for this run):</p>\n<table><thead><tr><th>file</th><th>bytes</th><th>CRC-32</th></tr></thead><tbody>\n");
         for (path, bytes, crc) in inputs {
@@ -291,6 +300,25 @@ fn settings_rows(j: &serde_json::Value) -> Vec<(String, String)> {
     let Some(top) = j.as_object() else { return rows };
     for (k, v) in top.iter().filter(|(k, _)| !matches!(k.as_str(), "notes" | "warnings")) {
         match v {
+            // The run record: its seed(s) and settings (its inputs have their own table).
+            serde_json::Value::Object(m) if k == "run" => {
+                let seed = match m.get("seed") {
+                    Some(serde_json::Value::Array(each)) => Some(
+                        each.iter()
+                            .map(|e| format!("{} = {}", scalar(&e["name"]).unwrap_or_default(), e["seed"]))
+                            .collect::<Vec<_>>()
+                            .join(", "),
+                    ),
+                    Some(s) => scalar(s),
+                    None => None,
+                };
+                rows.extend(seed.map(|s| ("run.seed".to_string(), s)));
+                for (k2, v2) in m.get("settings").and_then(|s| s.as_object()).into_iter().flatten() {
+                    let text = scalar(v2)
+                        .or_else(|| v2.as_array().map(|a| a.iter().filter_map(scalar).collect::<Vec<_>>().join(", ")));
+                    rows.extend(text.map(|t| (format!("run.settings.{k2}"), t)));
+                }
+            }
             serde_json::Value::Object(m) if matches!(k.as_str(), "settings" | "provenance" | "costs") => {
                 for (k2, v2) in m {
                     if let Some(s) = scalar(v2) {

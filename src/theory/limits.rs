@@ -260,8 +260,10 @@ pub fn check(scenario: &Scenario) -> LimitCheck {
         let name = d.name();
         let n = min_size(d.size().epochs(), m.coal_scale());
         if n < MIN_DEME_SIZE {
+            // A shrinking epoch can fall below one individual in the limit's look-ahead.
+            let size = if n < 1.0 { "fewer than 1 individual".to_string() } else { format!("N = {n:.0} individuals") };
             return no(format!(
-                "exact engine: deme `{name}` has N = {n:.0} < {MIN_DEME_SIZE} individuals at some time"
+                "exact engine: deme `{name}` has {size} at some time; a limit needs N >= {MIN_DEME_SIZE}"
             ));
         }
         match *m {
