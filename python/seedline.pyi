@@ -63,7 +63,7 @@ class Scenario:
         """Deme names, in file order (deme index = position)."""
     @property
     def sample_labels(self) -> List[str]:
-        """Labels of the sampled sequences (``deme_index``), in sample order."""
+        """Names of the sampled sequences (``deme_index_tTIME``, ``_seed`` for a seed-bank sample), as Newick leaves and VCF columns are named, in sample order."""
     @property
     def has_mutation(self) -> bool:
         """Whether the scenario has a mutation model (statistics and SFS need one)."""

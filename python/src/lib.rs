@@ -208,10 +208,11 @@ impl Scenario {
     fn demes(&self) -> Vec<String> {
         self.scenario.demes().iter().map(|d| d.name().to_string()).collect()
     }
-    /// Labels of the sampled sequences (`deme_index`), in sample order (node index of the leaves).
+    /// Names of the sampled sequences (`deme_index_tTIME`, `_seed` for a seed-bank sample), as
+    /// the Newick leaves and VCF columns are named, in sample order (node index of the leaves).
     #[getter]
     fn sample_labels(&self) -> Vec<String> {
-        self.scenario.samples().iter().map(|s| s.label.clone()).collect()
+        self.scenario.samples().iter().map(|s| s.name()).collect()
     }
     /// Whether the scenario has a mutation model (statistics and SFS need one).
     #[getter]
@@ -318,7 +319,7 @@ impl Run {
     }
     /// The Newick trees of replicate `i`: the lines of `trees.nwk` for it, one per tree (per
     /// locus, per local tree with recombination, per root of a forest), each led by its
-    /// `[replicate i ...]` comment. Branch lengths in generations; leaves labelled `deme_index`.
+    /// `[replicate i ...]` comment. Branch lengths in generations; leaves named `deme_index_tTIME` as in `sample_labels`.
     fn trees(&self, i: i64) -> PyResult<Vec<String>> {
         Ok(self.trees[self.index(i)? as usize].clone())
     }

@@ -31,7 +31,7 @@ def test_scenario_from_file_text_and_dict(root):
     assert a.demes == ["north", "south"] and a.name == b.name
     text = seedline.Scenario.from_yaml(SMALL)  # a str with a line break is YAML text
     assert text.origin == "<string>" and text.seed == 9 and text.replicates == 20 and text.has_mutation
-    assert text.sample_labels == [f"pond_{i}" for i in range(6)]
+    assert text.sample_labels == [f"pond_{i}_t0" for i in range(6)]
     d = seedline.Scenario.from_dict(
         {
             "seed": np.int64(9),  # numpy numbers are welcome
@@ -113,6 +113,8 @@ def test_predict_is_the_json_of_the_command(root, cli):
     path = root / "scenarios" / "lake-resting-eggs.yaml"
     ours = seedline.predict(seedline.Scenario.from_yaml(path))
     theirs = json.loads(cli("predict", path, "--json").stdout)
+    # The command adds the record of its run (inputs, settings); a library call has none.
+    assert theirs.pop("run")["command"] == "predict"
     assert ours == theirs
 
 
@@ -201,6 +203,7 @@ def test_observe_matches_the_command_on_simulated_data(root, cli, tmp_path):
     ours = seedline.observe(vcf, samples=smap, windows=500)
     cli("observe", vcf, "--samples", smap, "--windows", 500, "--out", tmp_path / "obs")
     theirs = json.loads((tmp_path / "obs" / "observed.json").read_text())
+    assert theirs.pop("run")["command"] == "observe"
     arrays = ours.pop("locus_arrays")
     assert ours == theirs
     table = read_tsv(tmp_path / "obs" / "observed.tsv")
@@ -224,4 +227,6 @@ def test_the_issues_example_paths(root, cli, tmp_path):
     ours = seedline.observe(vcf, samples=smap)
     ours.pop("locus_arrays")
     cli("observe", vcf, "--samples", smap, "--out", tmp_path / "obs")
-    assert ours == json.loads((tmp_path / "obs" / "observed.json").read_text())
+    theirs = json.loads((tmp_path / "obs" / "observed.json").read_text())
+    assert theirs.pop("run")["command"] == "observe"
+    assert ours == theirs

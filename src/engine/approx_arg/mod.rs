@@ -668,26 +668,8 @@ impl ApproxArgSimulator {
         if self.cross.is_empty() {
             return;
         }
-        self.switches.clear();
-        let mut k = 0;
-        while k < self.cross.len() {
-            let g = self.cross[k];
-            let mut m = 0;
-            while k < self.cross.len() && self.cross[k] == g {
-                m += 1;
-                k += 1;
-            }
-            let left_site = carries(segs, g - 1);
-            if left_site {
-                self.tree_crossovers += m;
-            }
-            if m % 2 == 1 && g < hi {
-                self.switches.push(g);
-                if left_site && carries(segs, g) {
-                    self.split_gaps.push(g);
-                }
-            }
-        }
+        self.tree_crossovers +=
+            crate::engine::arg::switches_of(segs, &self.cross, hi, &mut self.switches, &mut self.split_gaps);
         if self.switches.is_empty() {
             return;
         }
@@ -789,11 +771,6 @@ impl ApproxArgSimulator {
 }
 
 /// Whether the sorted, disjoint segments carry `site`.
-fn carries(segs: &[Seg], site: u64) -> bool {
-    let i = segs.partition_point(|s| s.right <= site);
-    i < segs.len() && segs[i].left <= site
-}
-
 /// Appends a segment, joining it to the last one when it continues it with equal content.
 fn push_seg(out: &mut Vec<Seg>, s: Seg) {
     if let Some(last) = out.last_mut()

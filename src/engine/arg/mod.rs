@@ -693,26 +693,8 @@ impl ArgSimulator {
         if self.cross.is_empty() {
             return None;
         }
-        self.switches.clear();
-        let mut k = 0;
-        while k < self.cross.len() {
-            let g = self.cross[k];
-            let mut m = 0;
-            while k < self.cross.len() && self.cross[k] == g {
-                m += 1;
-                k += 1;
-            }
-            let left_site = carries(segs, g - 1);
-            if left_site {
-                self.tree_crossovers += m;
-            }
-            if m % 2 == 1 && g < hi {
-                self.switches.push(g);
-                if left_site && carries(segs, g) {
-                    self.split_gaps.push(g);
-                }
-            }
-        }
+        self.tree_crossovers +=
+            crate::engine::arg::switches_of(segs, &self.cross, hi, &mut self.switches, &mut self.split_gaps);
         if self.switches.is_empty() {
             return None;
         }
@@ -737,9 +719,40 @@ impl ArgSimulator {
 }
 
 /// Whether the sorted, disjoint segments carry `site`.
-fn carries(segs: &[Seg], site: u64) -> bool {
-    let i = segs.partition_point(|s| s.right <= site);
-    i < segs.len() && segs[i].left <= site
+fn carries<S: Piece>(segs: &[S], site: u64) -> bool {
+    let i = segs.partition_point(|s| s.span().1 <= site);
+    i < segs.len() && segs[i].span().0 <= site
+}
+
+/// The parent switches that the sorted crossover gaps `cross` make on the material `segs`
+/// (gap g lies between sites g - 1 and g; material ends before `hi`): a gap crossed an odd
+/// number of times switches parent (into `switches`), and one that also splits carried sites
+/// on both sides is a visible split (into `split_gaps`). Returns the crossovers that fall to
+/// the right of a carried site (they touch the genealogy of the sample). Shared by the exact
+/// and the approximate recombination engines.
+pub(crate) fn switches_of<S: Piece>(
+    segs: &[S],
+    cross: &[u64],
+    hi: u64,
+    switches: &mut Vec<u64>,
+    split_gaps: &mut Vec<u64>,
+) -> u64 {
+    switches.clear();
+    let mut on_tree = 0;
+    for run in cross.chunk_by(|a, b| a == b) {
+        let (g, m) = (run[0], run.len() as u64);
+        let left_site = carries(segs, g - 1);
+        if left_site {
+            on_tree += m;
+        }
+        if m % 2 == 1 && g < hi {
+            switches.push(g);
+            if left_site && carries(segs, g) {
+                split_gaps.push(g);
+            }
+        }
+    }
+    on_tree
 }
 
 /// Joins adjacent segments with equal node, jumps and count.
