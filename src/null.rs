@@ -359,9 +359,10 @@ fn chunk_problem(path: &Path, ledger: &BTreeMap<String, (u64, String)>, expected
     }
 }
 
-/// Appends the rows and CRC-32 of a finished file to the chunk manifest, durably.
-fn append_ledger(ledger_path: &Path, path: &Path) -> Result<()> {
-    let (rows, crc) = chunk_facts(&fs::read(path).with_context(|| format!("cannot read {}", path.display()))?);
+/// Appends the rows and CRC-32 of a finished file, read from `contents` (its synced temporary
+/// file), to the chunk manifest under the name of `path`, durably.
+fn append_ledger(ledger_path: &Path, contents: &Path, path: &Path) -> Result<()> {
+    let (rows, crc) = chunk_facts(&fs::read(contents).with_context(|| format!("cannot read {}", contents.display()))?);
     let name = path.file_name().map(|n| n.to_string_lossy().into_owned()).unwrap_or_default();
     let mut ledger_file = fs::OpenOptions::new()
         .create(true)
@@ -550,12 +551,18 @@ pub fn run(
             )?;
         }
         // The per-locus file first: a chunk listed in the chunk manifest always has its loci.
+        // Each file is listed before it is renamed into place: a kill in between leaves a
+        // listed file that is absent (missing, redone by a rerun), never a finished file that
+        // is not listed (which would look damaged).
+        let finish = |mut file: crate::report::StreamFile, path: &Path| -> Result<()> {
+            let tmp = file.sync().with_context(|| format!("cannot write {}", path.display()))?.to_path_buf();
+            append_ledger(&ledger_path, &tmp, path)?;
+            file.finish().with_context(|| format!("cannot write {}", path.display()))
+        };
         if let Some(lf) = lf {
-            lf.finish().with_context(|| format!("cannot write {}", loci_path.display()))?;
-            append_ledger(&ledger_path, &loci_path)?;
+            finish(lf, &loci_path)?;
         }
-        f.finish().with_context(|| format!("cannot write {}", path.display()))?;
-        append_ledger(&ledger_path, &path)?;
+        finish(f, &path)?;
         report.written_chunks += 1;
     }
     Ok(report)

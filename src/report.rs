@@ -928,6 +928,14 @@ impl StreamFile {
         Ok(StreamFile { out, tmp, path: path.to_path_buf(), done: false })
     }
 
+    /// Flushes and syncs the contents under the temporary name, and returns that name (to
+    /// record the finished contents before [`StreamFile::finish`] renames them into place).
+    pub fn sync(&mut self) -> io::Result<&Path> {
+        self.out.flush()?;
+        self.out.inner.get_ref().sync_all().map_err(|e| named("write", &self.tmp, e))?;
+        Ok(&self.tmp)
+    }
+
     /// Flushes, syncs and renames the file to its final name.
     pub fn finish(mut self) -> io::Result<()> {
         self.out.flush()?;

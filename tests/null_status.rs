@@ -126,8 +126,8 @@ fn status_reads_the_chunk_manifest_and_the_per_locus_files() {
     // Stopped after 2 of 3 chunks (--max-chunks): the last is missing.
     let st = null::status(&[d.join("run")]).unwrap();
     assert_eq!((st.runs[0].done_chunks, st.runs[0].total_chunks, st.runs[0].missing.clone()), (2, 3, vec![(2, 3)]));
-    // A chunk whose line in the chunk manifest is lost (killed between rename and append)
-    // is not trusted; neither is a chunk whose per-locus file is cut short.
+    // A chunk whose line in the chunk manifest is lost (the file is listed before its rename,
+    // so only damage does this) is not trusted; neither is a chunk whose per-locus file is cut short.
     let ledger = std::fs::read_to_string(d.join("run/chunks.tsv")).unwrap();
     let kept: String =
         ledger.lines().filter(|l| !l.starts_with("chunk_000001.tsv")).map(|l| format!("{l}\n")).collect();
@@ -146,6 +146,18 @@ fn status_reads_the_chunk_manifest_and_the_per_locus_files() {
     let cfg = NullConfig { max_new_chunks: None, ..cfg };
     let r = null::run(&s, cfg, None, BatchConfig::default(), &d.join("run"), &|_| {}).unwrap();
     assert_eq!((r.resumed_chunks, r.written_chunks, r.redone.len()), (0, 3, 2));
+    assert_eq!(status(&d, &["run"]).0, Some(0));
+    // A kill between a file's line in the chunk manifest and its rename into place (the
+    // order the run writes them in) leaves a listed chunk that is absent: it is missing, not
+    // damaged, and a rerun writes it again, identical to the first time.
+    let before = std::fs::read(d.join("run/chunk_000002.tsv")).unwrap();
+    std::fs::remove_file(d.join("run/chunk_000002.tsv")).unwrap();
+    let st = null::status(&[d.join("run")]).unwrap();
+    assert!(st.runs[0].damaged.is_empty(), "{:?}", st.runs[0].damaged);
+    assert_eq!(st.runs[0].missing, vec![(2, 3)]);
+    let r = null::run(&s, cfg, None, BatchConfig::default(), &d.join("run"), &|_| {}).unwrap();
+    assert_eq!((r.resumed_chunks, r.written_chunks), (2, 1));
+    assert_eq!(std::fs::read(d.join("run/chunk_000002.tsv")).unwrap(), before);
     assert_eq!(status(&d, &["run"]).0, Some(0));
 }
 
