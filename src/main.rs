@@ -191,6 +191,9 @@ enum Command {
         /// Run directories (--out of `null` or `merge`), or a directory holding them
         #[arg(required = true)]
         dirs: Vec<PathBuf>,
+        /// Print JSON (every run's state, chunks missing and damaged, shard indices to rerun)
+        #[arg(long)]
+        json: bool,
     },
     /// Test observed statistics against a null distribution
     Test {
@@ -669,9 +672,13 @@ fn run(cli: Cli) -> Result<()> {
             out!("merged {n} replicates into {}\n", out.join("null.tsv").display())?;
             Ok(())
         }
-        Command::Status { dirs } => {
+        Command::Status { dirs, json } => {
             let status = seedline::null::status(&dirs)?;
-            out!("{}", seedline::null::render_status(&status))?;
+            if json {
+                out!("{}\n", serde_json::to_string_pretty(&seedline::null::status_json(&status))?)?;
+            } else {
+                out!("{}", seedline::null::render_status(&status))?;
+            }
             match status.is_complete() {
                 true => Ok(()),
                 false => Err(seedline::null::Incomplete.into()),

@@ -1683,6 +1683,41 @@ pub fn status(dirs: &[PathBuf]) -> Result<Status> {
     Ok(Status { runs, shards, missing_shards, duplicate_shards, replicates_short })
 }
 
+/// [`Status`] as `seedline status --json` prints it: every field, plus `complete`, each run's
+/// `state` (`done`, `partial`, `damaged`), and the shard indices to run again (`rerun`, and
+/// as a job-array specification `rerun_array`, e.g. `"1-3,7"`).
+pub fn status_json(s: &Status) -> serde_json::Value {
+    let mut v = serde_json::to_value(s).unwrap_or_default();
+    if let Some(runs) = v["runs"].as_array_mut() {
+        for (j, r) in runs.iter_mut().zip(&s.runs) {
+            j["state"] = run_state(r).into();
+        }
+    }
+    v["complete"] = s.is_complete().into();
+    v["rerun"] = s.to_rerun().into();
+    v["rerun_array"] = array_spec(&s.to_rerun()).into();
+    v
+}
+
+fn run_state(r: &RunStatus) -> &'static str {
+    if r.is_complete() {
+        "done"
+    } else if r.damaged.is_empty() {
+        "partial"
+    } else {
+        "damaged"
+    }
+}
+
+/// Sorted indices as a job-array specification: `1-3,7`.
+fn array_spec(sorted: &[u64]) -> String {
+    let parts: Vec<String> = index_ranges(sorted)
+        .into_iter()
+        .map(|(a, b)| if a == b { a.to_string() } else { format!("{a}-{b}") })
+        .collect();
+    parts.join(",")
+}
+
 /// Renders a [`status`] for the terminal: one line per run, the shards no directory holds,
 /// and what to do.
 pub fn render_status(s: &Status) -> String {
@@ -1697,13 +1732,7 @@ pub fn render_status(s: &Status) -> String {
     let mut out = String::new();
     for r in &s.runs {
         let label = if r.merged { "merged".to_string() } else { format!("shard {}/{}", r.shard.0, r.shard.1) };
-        let state = if r.is_complete() {
-            "done"
-        } else if r.damaged.is_empty() {
-            "partial"
-        } else {
-            "damaged"
-        };
+        let state = run_state(r);
         out.push_str(&format!(
             "{label:<12} {state:<8} {} of {} chunks good, {} replicates  {}\n",
             r.done_chunks,
@@ -1742,17 +1771,12 @@ pub fn render_status(s: &Status) -> String {
     if s.is_complete() {
         out.push_str("complete: ready to merge\n");
     } else {
-        // Ranges as an array specification takes them: `1-3,7`.
-        let rerun: Vec<String> = index_ranges(&s.to_rerun())
-            .into_iter()
-            .map(|(a, b)| if a == b { a.to_string() } else { format!("{a}-{b}") })
-            .collect();
+        let rerun = array_spec(&s.to_rerun());
         out.push_str("not complete: ");
         if !rerun.is_empty() {
             out.push_str(&format!(
-                "rerun the same `seedline null` command for shard(s) {} (in a job array: resubmit index {}), ",
-                rerun.join(", "),
-                rerun.join(",")
+                "rerun the same `seedline null` command for shard(s) {} (in a job array: resubmit index {rerun}), ",
+                rerun.replace(',', ", "),
             ));
         }
         out.push_str("then merge; merge refuses until then\n");

@@ -77,6 +77,17 @@ fn status_reports_missing_damaged_and_absent_shards_and_clears_after_a_rerun() {
     assert!(text.contains("damaged: chunk_000000.tsv"), "{text}");
     assert!(text.contains("shard 3/4    missing"), "{text}");
     assert!(text.contains("resubmit index 1-3)"), "{text}");
+    // The same as JSON, for scripts; the same exit code.
+    let (code, text) = status(&d, &["null/shard_0", "null/shard_1", "null/shard_2", "--json"]);
+    assert_eq!(code, Some(i32::from(null::INCOMPLETE_EXIT)), "{text}");
+    let j: serde_json::Value = serde_json::from_str(&text).unwrap();
+    assert_eq!(j["complete"], false);
+    assert_eq!(j["rerun"], serde_json::json!([1, 2, 3]));
+    assert_eq!(j["rerun_array"], "1-3");
+    let states: Vec<&str> = j["runs"].as_array().unwrap().iter().map(|r| r["state"].as_str().unwrap()).collect();
+    assert_eq!(states, ["done", "partial", "damaged"]);
+    assert_eq!(j["runs"][1]["missing"], serde_json::json!([[1, 2]]));
+    assert_eq!(j["missing_shards"], serde_json::json!([3]));
     // Merging now is refused.
     let o = Command::new(env!("CARGO_BIN_EXE_seedline"))
         .args(["merge", "null/shard_0", "null/shard_1", "null/shard_2", "--out", "all"])
