@@ -23,9 +23,14 @@ pub fn seedline(args: &[&str]) -> std::process::Output {
     std::process::Command::new(env!("CARGO_BIN_EXE_seedline")).args(args).output().expect("the binary runs")
 }
 
-/// A fresh temporary directory for one test (removed first if it exists).
+/// A fresh temporary directory for one test (removed first if it exists). Its name carries
+/// the calling file: every file of tests/ runs in one process (tests/suite), where two files
+/// may each use the same `name` at the same time.
+#[track_caller]
 pub fn tempdir(name: &str) -> std::path::PathBuf {
-    let d = std::env::temp_dir().join(format!("seedline-test-{name}-{}", std::process::id()));
+    let caller = std::path::Path::new(std::panic::Location::caller().file());
+    let file = caller.file_stem().and_then(|s| s.to_str()).unwrap_or("test");
+    let d = std::env::temp_dir().join(format!("seedline-test-{file}-{name}-{}", std::process::id()));
     let _ = std::fs::remove_dir_all(&d);
     std::fs::create_dir_all(&d).unwrap();
     d
