@@ -606,7 +606,10 @@ fn run(cli: Cli) -> Result<()> {
             let (mut raw, origin) = load_raw(Some(&scenario_path))?;
             raw.seed = seed.or(raw.seed);
             let observed = match &like {
-                Some(p) => Some(null::load_observed(p).map_err(|e| BadInput(format!("{e:#}")))?),
+                Some(p) => Some(
+                    null::load_observed(p)
+                        .map_err(|e| BadInput(format!("--like (the observed.json of `seedline observe`): {e:#}")))?,
+                ),
                 None => None,
             };
             if let Some(o) = &observed {
@@ -649,7 +652,7 @@ fn run(cli: Cli) -> Result<()> {
                 note!("note: redone: {r}");
             }
             out!(
-                "{} of {} chunks complete in {} ({} resumed, {} written now{}); shard {}/{} holds {} replicates\n",
+                "{} of {} chunks complete in {} ({} resumed, {} written now{}); shard {}/{}: {} of its {} replicates done\n",
                 report.resumed_chunks + report.written_chunks,
                 report.total_chunks,
                 out.display(),
@@ -658,6 +661,7 @@ fn run(cli: Cli) -> Result<()> {
                 if report.redone.is_empty() { String::new() } else { format!(", {} redone", report.redone.len()) },
                 shard.0,
                 shard.1,
+                report.done_replicates,
                 report.shard_replicates
             )?;
             out!("engine: {}\n", report.engine.reason)?;
@@ -686,7 +690,8 @@ fn run(cli: Cli) -> Result<()> {
         }
         Command::Test { observed, null, out, force } => {
             use seedline::null as nl;
-            let obs = nl::load_observed(&observed).map_err(|e| BadInput(format!("{e:#}")))?;
+            let obs = nl::load_observed(&observed)
+                .map_err(|e| BadInput(format!("observed data (the observed.json of `seedline observe`): {e:#}")))?;
             let table = nl::load(&null)?;
             let mut report = nl::test(&obs, &table)?;
             let mut output = Output::begin(&out, "test", force.force)?;

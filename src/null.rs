@@ -290,6 +290,8 @@ pub struct NullReport {
     pub total_chunks: u64,
     /// Replicates of this shard.
     pub shard_replicates: u64,
+    /// Replicates of this shard in complete chunks now (fewer with `--max-chunks`).
+    pub done_replicates: u64,
     /// Chunks found damaged (or not in the chunk manifest) and redone, with the reason.
     pub redone: Vec<String>,
     /// The engine that ran and why.
@@ -466,6 +468,7 @@ pub fn run(
         written_chunks: 0,
         total_chunks,
         shard_replicates: cfg.shard_replicates(),
+        done_replicates: 0,
         redone: Vec::new(),
         engine: engine.decision().clone(),
     };
@@ -565,6 +568,7 @@ pub fn run(
         finish(f, &path)?;
         report.written_chunks += 1;
     }
+    report.done_replicates = done.load(std::sync::atomic::Ordering::Relaxed);
     Ok(report)
 }
 
@@ -831,10 +835,12 @@ pub fn merge(dirs: &[PathBuf], out: &Path) -> Result<u64> {
         rows.extend(t.rows);
     }
     rows.sort_by_key(|r| r.0);
+    // Errors name the directories given (`out` is a staging directory).
+    let given = PathBuf::from(dirs.iter().map(|d| d.display().to_string()).collect::<Vec<_>>().join(" "));
     for w in rows.windows(2) {
         if w[0].0 == w[1].0 {
             return Err(NullError::Chunks {
-                dir: out.to_path_buf(),
+                dir: given.clone(),
                 message: format!("replicate {} appears twice: the same shard was given twice", w[0].0),
             }
             .into());
@@ -843,7 +849,7 @@ pub fn merge(dirs: &[PathBuf], out: &Path) -> Result<u64> {
     let have = rows.len() as u64;
     if have != first.replicates {
         return Err(NullError::Chunks {
-            dir: out.to_path_buf(),
+            dir: given,
             message: format!(
                 "the runs hold {have} of {} replicates: some shard is missing (give every shard directory)",
                 first.replicates
@@ -1158,6 +1164,8 @@ fn locus_tests(observed: &ObservedData, null: &NullTable) -> Result<Vec<LocusTes
 /// The observed data against a null distribution: every statistic, and the SFS fit.
 #[derive(Debug, Clone, Serialize)]
 pub struct TestReport {
+    /// The null hypothesis the p-values are under.
+    pub null: NullModel,
     /// The run that made this file: version, command, seed, inputs with checksums, settings
     /// (set by the command; absent for library callers that give none).
     #[serde(skip_serializing_if = "Option::is_none")]
@@ -1172,6 +1180,8 @@ pub struct TestReport {
     pub sfs_compared: Option<(String, Vec<f64>, Vec<Vec<f64>>)>,
     /// Null replicates.
     pub replicates: usize,
+    /// What `null_low` and `null_high` of each statistic are.
+    pub null_interval: &'static str,
     /// Notes.
     pub notes: Vec<String>,
 }
@@ -1325,7 +1335,69 @@ pub fn test(observed: &ObservedData, null: &NullTable) -> Result<TestReport> {
             sfs_compared = Some((kind.to_string(), obs, rows));
         }
     }
-    Ok(TestReport { run: None, statistics, loci, sfs_fit, sfs_compared, replicates: b, notes })
+    let model = NullModel::of(null);
+    if model.shard.1 > 1 {
+        notes.push(format!(
+            "this null is shard {}/{} alone: {b} of its {} replicates; merge the shards (`seedline merge`) to test against the whole null",
+            model.shard.0, model.shard.1, model.replicates
+        ));
+    }
+    Ok(TestReport {
+        run: None,
+        null: model,
+        statistics,
+        loci,
+        sfs_fit,
+        sfs_compared,
+        replicates: b,
+        null_interval: NULL_INTERVAL,
+        notes,
+    })
+}
+
+/// The meaning of `null_low` and `null_high` in `test.json` (`null_low_2.5`, `null_high_97.5`
+/// in `test.tsv`).
+pub const NULL_INTERVAL: &str = "null_low, null_high: the 2.5% and 97.5% quantiles (type 7) of the null replicates";
+
+/// What a test's null distribution is: the hypothesis, how it was simulated, which part of it.
+#[derive(Debug, Clone, Serialize)]
+pub struct NullModel {
+    /// The null run directory.
+    pub dir: String,
+    /// The scenario's `name`, if it has one.
+    pub scenario_name: Option<String>,
+    /// The scenario file and `--like` file as read by `seedline null` (path as given there,
+    /// bytes, CRC-32), when the run recorded them.
+    pub inputs: Vec<crate::report::record::InputFile>,
+    /// Master seed.
+    pub seed: u64,
+    /// The engine that made the rows, and why.
+    pub engine: EngineKind,
+    /// Why that engine.
+    pub engine_reason: String,
+    /// Mutation count: `poisson`, or `fixed S` (`--condition-on-s`).
+    pub mutations: String,
+    /// Replicates B of the whole null (over all shards).
+    pub replicates: u64,
+    /// Shard I of K this directory holds ([0, 1] for a whole or merged null).
+    pub shard: (u64, u64),
+}
+
+impl NullModel {
+    fn of(null: &NullTable) -> Self {
+        let m = &null.manifest;
+        NullModel {
+            dir: null.dir.display().to_string(),
+            scenario_name: m.scenario.get("name").and_then(|n| n.as_str()).map(String::from),
+            inputs: m.run.as_ref().map(|r| r.inputs.clone()).unwrap_or_default(),
+            seed: m.seed,
+            engine: m.engine,
+            engine_reason: m.engine_reason.clone(),
+            mutations: m.mutations.clone(),
+            replicates: m.replicates,
+            shard: (m.shard, m.shards),
+        }
+    }
 }
 
 /// Renders the test table for the terminal.
@@ -1334,6 +1406,13 @@ pub fn render_test(r: &TestReport) -> String {
     let f = |x: Option<f64>| x.map_or("-".to_string(), fmt_num);
     let mut s =
         format!("observed against {} null replicates (two-sided empirical p-values, (r+1)/(B+1))\n", r.replicates);
+    let m = &r.null;
+    let file = m.inputs.iter().find(|i| i.role == "scenario").map(|i| format!(" ({})", i.path)).unwrap_or_default();
+    let name = m.scenario_name.as_deref().map(|n| format!("\"{n}\"")).unwrap_or_else(|| "unnamed scenario".into());
+    s.push_str(&format!(
+        "null: {name}{file} in {}, seed {}, engine {}, {} mutations\n",
+        m.dir, m.seed, m.engine, m.mutations
+    ));
     s.push_str(&format!(
         "{:<20} {:>12} {:>12} {:>12} {:>12} {:>9}\n",
         "statistic", "observed", "null mean", "null 2.5%", "null 97.5%", "p"

@@ -65,8 +65,9 @@ pub const QUANTILE_LABELS: [&str; 5] = ["2.5%", "25%", "50%", "75%", "97.5%"];
 
 fn labelled_quantiles<S: serde::Serializer>(q: &Option<[f64; 5]>, s: S) -> Result<S::Ok, S::Error> {
     match q {
-        Some(q) => s.collect_map(QUANTILE_LABELS.iter().zip(q)),
-        None => s.serialize_none(),
+        Some(q) => s.collect_map(QUANTILE_LABELS.iter().zip(q.map(Some))),
+        // No value (e.g. tmrca when every replicate is a forest): the same keys, each null.
+        None => s.collect_map(QUANTILE_LABELS.iter().map(|l| (l, None::<f64>))),
     }
 }
 

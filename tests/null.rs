@@ -50,6 +50,18 @@ fn shards_merged_equal_the_unsharded_run_and_resume_equals_uninterrupted() {
     assert_eq!((r.resumed_chunks, r.written_chunks), (2, 4));
     null::merge(&[d.join("part")], &d.join("m_part")).unwrap();
     assert_eq!(a, std::fs::read(d.join("m_part/null.tsv")).unwrap());
+    // A test against one shard says so, and names the null it used; against the merged
+    // shards it holds every replicate and no such note.
+    let obs = seedline::abc::parse_observed(r#"{"statistics": {"pi": 2.0}}"#, "obs").unwrap();
+    let shard = null::test(&obs, &null::load(&d.join("s1")).unwrap()).unwrap();
+    assert_eq!(
+        (shard.replicates, shard.null.shard, shard.null.replicates, shard.null.seed),
+        (50, (1, 3), 150, s.seed())
+    );
+    assert!(shard.notes.iter().any(|n| n.contains("shard 1/3 alone: 50 of its 150")), "{:?}", shard.notes);
+    let whole = null::test(&obs, &null::load(&d.join("m_shards")).unwrap()).unwrap();
+    assert_eq!((whole.replicates, whole.null.shard), (150, (0, 1)));
+    assert!(!whole.notes.iter().any(|n| n.contains("alone")), "{:?}", whole.notes);
     // An incomplete set of shards, and a mix of settings, are refused.
     assert!(null::merge(&[d.join("s0"), d.join("s1")], &d.join("bad")).is_err());
     assert!(null::run(&s, cfg(151, (0, 1), None), None, BatchConfig::default(), &d.join("part"), &quiet).is_err());

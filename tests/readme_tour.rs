@@ -95,6 +95,14 @@ fn readme_tour_and_help_examples_run_verbatim() {
     {
         assert!(checked.iter().any(|f| f.ends_with(must)), "the tour wrote no {must} (checked: {checked:?})");
     }
+    // test.json names the null its p-values are under: the null run's seed and scenario file.
+    let read = |p: &str| -> serde_json::Value {
+        serde_json::from_str(&std::fs::read_to_string(dir.join(p)).unwrap()).unwrap()
+    };
+    let (t, n) = (read("test/test.json"), read("null/h0/null.json"));
+    assert_eq!((&t["run"]["seed"], &t["null"]["seed"]), (&n["seed"], &n["seed"]));
+    assert_eq!(t["null"]["inputs"][0], n["run"]["inputs"][0]);
+    assert_eq!(t["null"]["scenario_name"], n["scenario"]["name"]);
 
     let top = run_help(&bin, &["--help"]);
     let mut examples = help_examples(&top);

@@ -352,7 +352,7 @@ impl CompareRun {
     pub fn run_record(&self) -> Option<crate::report::record::RunRecord> {
         self.run.as_ref().map(|r| {
             let each = self.hypotheses.iter().zip(&self.seeds);
-            r.with_seed(Seeds::Each(each.map(|(h, &seed)| NamedSeed { name: h.name.clone(), seed }).collect()))
+            r.with_seed(Seeds::Each(each.map(|(h, &key)| NamedSeed::new(&h.name, h.seed, key)).collect()))
         })
     }
 }

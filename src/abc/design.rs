@@ -337,8 +337,12 @@ pub struct DesignRun {
     pub statistics: Vec<String>,
     /// One row per design and statistic.
     pub rows: Vec<PowerRow>,
-    /// Seeds of the null and the alternative.
+    /// Master keys of the null and the alternative (derived from their files' seeds).
     pub seeds: (u64, u64),
+    /// The seed of the null's file.
+    pub null_seed: u64,
+    /// The seed of the alternative's file.
+    pub alternative_seed: u64,
     /// How often each engine ran: (design, null, alternative), in file order.
     pub engines: Vec<(String, crate::engine::EngineTally, crate::engine::EngineTally)>,
     /// What the reader should know.
@@ -349,8 +353,8 @@ impl DesignRun {
     /// The run record with the master seeds of the null and the alternative.
     pub fn run_record(&self) -> Option<crate::report::record::RunRecord> {
         self.run.as_ref().map(|r| {
-            let null = NamedSeed { name: "null".into(), seed: self.seeds.0 };
-            let alternative = NamedSeed { name: "alternative".into(), seed: self.seeds.1 };
+            let null = NamedSeed::new("null", self.null_seed, self.seeds.0);
+            let alternative = NamedSeed::new("alternative", self.alternative_seed, self.seeds.1);
             r.with_seed(Seeds::Each(vec![null, alternative]))
         })
     }
@@ -489,6 +493,8 @@ pub fn run(
         statistics,
         rows,
         seeds,
+        null_seed: null.seed,
+        alternative_seed: alternative.seed,
         engines,
         notes,
     })

@@ -42,12 +42,13 @@ use std::path::{Path, PathBuf};
 #[non_exhaustive]
 pub enum Error {
     /// A file could not be read.
-    #[error("cannot read {file}")]
+    // The cause is in the message (not a chained source): every caller prints it once.
+    #[error("cannot read {file}: {cause}")]
     Read {
         /// File name.
         file: String,
         /// Cause.
-        source: std::io::Error,
+        cause: std::io::Error,
     },
     /// A YAML file could not be parsed.
     #[error("{file}: {message}")]
@@ -71,7 +72,7 @@ pub enum Error {
     #[error(transparent)]
     Scenario(#[from] crate::scenario::Error),
     /// The scenario is invalid for some values drawn from the priors.
-    #[error("{file}: with {values}")]
+    #[error("{file}: {}", with_values(values))]
     Draw {
         /// File name.
         file: String,
@@ -104,7 +105,7 @@ pub enum Error {
         message: String,
     },
     /// The requested engine cannot run a scenario drawn from the priors.
-    #[error("{file}: with {values}")]
+    #[error("{file}: {}", with_values(values))]
     Engine {
         /// File name.
         file: String,
@@ -219,10 +220,15 @@ pub fn sfs_class(name: &str) -> Option<usize> {
     name.strip_prefix("sfs_").and_then(|k| k.parse::<usize>().ok()).filter(|&k| k >= 1)
 }
 
+/// The context of an error for drawn values; without priors, the file itself is at fault.
+fn with_values(values: &str) -> String {
+    if values.is_empty() { "not a valid hypothesis (scenario) file".to_string() } else { format!("with {values}") }
+}
+
 /// Reads an observed-statistics JSON file (see [`parse_observed`]).
 pub fn load_observed(path: &Path) -> Result<ObservedData, Error> {
     let origin = path.display().to_string();
-    let text = std::fs::read_to_string(path).map_err(|source| Error::Read { file: origin.clone(), source })?;
+    let text = std::fs::read_to_string(path).map_err(|cause| Error::Read { file: origin.clone(), cause })?;
     parse_observed(&text, &origin)
 }
 
@@ -533,7 +539,7 @@ pub fn unique_names(files: &[String]) -> Vec<String> {
 /// Reads a hypothesis file.
 pub fn load_hypothesis(path: &Path, name: &str) -> Result<Hypothesis, Error> {
     let origin = path.display().to_string();
-    let text = std::fs::read_to_string(path).map_err(|source| Error::Read { file: origin.clone(), source })?;
+    let text = std::fs::read_to_string(path).map_err(|cause| Error::Read { file: origin.clone(), cause })?;
     Hypothesis::from_yaml_str(&text, &origin, name)
 }
 

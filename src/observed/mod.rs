@@ -620,6 +620,14 @@ pub struct Input<'a> {
 /// `BC` extra field, read with noodles).
 pub fn open_input(path: &Path) -> Result<Input<'static>, Error> {
     let file = path.display().to_string();
+    if path.is_dir() {
+        // Opening a directory succeeds on Unix; reading it fails with a puzzling message.
+        let source = io::Error::new(
+            io::ErrorKind::InvalidInput,
+            "it is a directory: give a VCF (plain, gzip or bgzip) or BCF file",
+        );
+        return Err(Error::Open { file, source });
+    }
     let f = std::fs::File::open(path).map_err(|source| Error::Open { file: file.clone(), source })?;
     let mut r = io::BufReader::with_capacity(1 << 16, f);
     let magic = r.fill_buf().map_err(|source| Error::Read { file, unit: "line", line: 1, source })?;

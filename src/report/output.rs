@@ -42,7 +42,8 @@ pub enum OutputError {
         source: io::Error,
     },
     /// `--out` cannot be written (checked before any work).
-    #[error("--out {}: cannot {operation} {}: {source}", dir.display(), path.display())]
+    // The cause is in the message (not a chained source): it is printed once.
+    #[error("--out {}: cannot {operation} {}: {cause}", dir.display(), path.display())]
     Unwritable {
         /// The output directory.
         dir: PathBuf,
@@ -51,7 +52,7 @@ pub enum OutputError {
         /// The path involved.
         path: PathBuf,
         /// Cause.
-        source: io::Error,
+        cause: io::Error,
     },
     /// The directory holds files that seedline did not write.
     #[error(
@@ -143,7 +144,7 @@ pub struct Claimed {
 pub fn claim(dir: &Path, command: &str, force: bool, own: &dyn Fn(&str) -> bool) -> Result<Claimed, OutputError> {
     let unwritable = |operation: &'static str, path: &Path| {
         let (dir, path) = (dir.to_path_buf(), path.to_path_buf());
-        move |source| OutputError::Unwritable { dir, operation, path, source }
+        move |cause| OutputError::Unwritable { dir, operation, path, cause }
     };
     if dir.exists() && !dir.is_dir() {
         let e = io::Error::new(io::ErrorKind::AlreadyExists, "it exists and is not a directory");
@@ -274,7 +275,7 @@ impl Output {
         let staging = dir.join(staging_name());
         let unwritable = |operation: &'static str, path: &Path| {
             let (dir, path) = (dir.to_path_buf(), path.to_path_buf());
-            move |source| OutputError::Unwritable { dir, operation, path, source }
+            move |cause| OutputError::Unwritable { dir, operation, path, cause }
         };
         fs::create_dir_all(&staging).map_err(unwritable("create directory", &staging))?;
         let probe = staging.join(".probe");

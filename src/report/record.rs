@@ -34,17 +34,28 @@ pub enum Seeds {
     None,
     /// One master seed.
     One(u64),
-    /// One master seed per hypothesis (or per part of the run), by name.
+    /// One seed per hypothesis (or per part of the run), by name.
     Each(Vec<NamedSeed>),
 }
 
-/// The master seed of one named part of a run.
+/// The seed of one named part of a run (a hypothesis of `compare` or `design`).
 #[derive(Debug, Clone, PartialEq, Eq, Serialize, Deserialize)]
 pub struct NamedSeed {
     /// The hypothesis (or part) it seeds.
     pub name: String,
-    /// Its master seed.
+    /// The seed of its file (`seed:`), as for the other commands.
     pub seed: u64,
+    /// The master key its draws come from, derived from the seed and the hypothesis' place on
+    /// the command line; a decimal string, since it may exceed 2^53 (the integers a JSON
+    /// reader that uses doubles keeps exactly).
+    pub stream: String,
+}
+
+impl NamedSeed {
+    /// The seed of `name`: its file's `seed` and the derived master key.
+    pub fn new(name: &str, seed: u64, stream: u64) -> Self {
+        NamedSeed { name: name.to_string(), seed, stream: stream.to_string() }
+    }
 }
 
 /// The `"run"` object of every JSON output.

@@ -296,8 +296,17 @@ pub fn read_file(path: &std::path::Path) -> Result<(String, String), Error> {
 
 /// Parses YAML into the raw mirror, mapping parser errors to [`Error::Syntax`].
 pub fn parse_raw(text: &str, origin: &str) -> Result<RawScenario, Error> {
-    serde_saphyr::from_str(text)
-        .map_err(|e| Error::Syntax { origin: origin.to_string(), message: yaml_message(&e, text) })
+    serde_saphyr::from_str(text).map_err(|e| {
+        let mut message = yaml_message(&e, text);
+        // A hypothesis file given where a scenario is needed.
+        let line = e.location().map_or(0, |l| l.line() as usize);
+        if line > 0 && text.lines().nth(line - 1).is_some_and(|l| l.contains("prior:")) {
+            message.push_str(
+                "\na prior {prior: ...} is allowed only in a hypothesis file, read by `compare` and `design`",
+            );
+        }
+        Error::Syntax { origin: origin.to_string(), message }
+    })
 }
 
 /// A YAML reading error in words for the user: `line L, column C, key `k`: what is wrong`
