@@ -94,6 +94,7 @@ fn a_table_of_bad_inputs_exits_2_names_file_and_field_and_writes_nothing() {
     write(&d, "h_key.yaml", &BASE.replace("mean: 2", "mean: {prior: uniform, low: 1, high: 4, step: 1}"));
     write(&d, "h_nomut.yaml", &nomut.replace("size: 100,", "size: {prior: uniform, low: 50, high: 150},"));
     write(&d, "designs_empty.yaml", "designs: []\n");
+    std::fs::create_dir_all(d.join("adir")).unwrap();
     write(&d, "designs_sites.yaml", "designs:\n  - {name: a, samples: [{deme: pond, count: 4}], sites: 0}\n");
     write(&d, "designs_deme.yaml", "designs:\n  - {name: a, samples: [{deme: sea, count: 4}]}\n");
     write(
@@ -178,6 +179,11 @@ fn a_table_of_bad_inputs_exits_2_names_file_and_field_and_writes_nothing() {
         case("compare obs.json --hypotheses h_bad.yaml --out OUT", &["h_bad.yaml", "demes[0].dormancy.mean"]),
         case("compare obs.json --hypotheses h_key.yaml --out OUT", &["h_key.yaml", "step"]),
         case("compare obs.json --hypotheses h_nomut.yaml --out OUT", &["h_nomut.yaml", "mutation"]),
+        case("compare obs.json --hypotheses designs_deme.yaml --out OUT", &["designs_deme.yaml", "hypothesis"]),
+        case("simulate h_bad.yaml --out OUT", &["h_bad.yaml", "mean", "hypothesis file"]),
+        case("observe adir --samples map_ok.tsv --out OUT", &["adir", "directory", "VCF"]),
+        case("test adir --null adir --out OUT", &["adir", "observed.json"]),
+        case("null good.yaml --replicates 10 --like adir --out OUT", &["--like", "adir"]),
         case("compare obs.json --hypotheses good.yaml --statistics warp --out OUT", &["statistic", "warp"]),
         case("compare obs_n5.json --hypotheses good.yaml --out OUT", &["obs_n5.json", "sample"]),
         case("compare missing.json --hypotheses good.yaml --out OUT", &["missing.json"]),
