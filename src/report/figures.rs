@@ -197,7 +197,13 @@ pub fn sfs_simulated(
             .fold(1e-9f64, f64::max)
             * 1.15;
         let mut chart = ChartBuilder::on(&root)
-            .caption(format!("Unfolded SFS: simulated ({replicates} replicates) against predicted"), ("sans-serif", 18))
+            .caption(
+                match predicted {
+                    Some(_) => format!("Unfolded SFS: simulated ({replicates} replicates) against predicted"),
+                    None => format!("Unfolded SFS: simulated ({replicates} replicates); no prediction drawn"),
+                },
+                ("sans-serif", 18),
+            )
             .margin(12)
             .x_label_area_size(45)
             .y_label_area_size(60)
@@ -235,6 +241,13 @@ pub fn sfs_simulated(
                 .map_err(|e| err(&e))?
                 .label(format!("predicted ({label})"))
                 .legend(|(x, y)| PathElement::new([(x, y), (x + 18, y)], RED.stroke_width(2)));
+        } else {
+            // Said in the legend too: an absent line must not read as a line hidden by the points.
+            chart
+                .draw_series(std::iter::empty::<Circle<(f64, f64), i32>>())
+                .map_err(|e| err(&e))?
+                .label("no predicted SFS for this sample (see the run's notes)")
+                .legend(|(x, y)| Text::new("-", (x + 6, y - 8), ("sans-serif", 14)));
         }
         chart
             .configure_series_labels()
