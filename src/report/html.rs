@@ -651,9 +651,8 @@ fn settings_rows(j: &serde_json::Value) -> Vec<(String, String)> {
         .map(|a| a.iter().filter_map(|i| i["path"].as_str().map(String::from)).collect())
         .unwrap_or_default();
     let command = run.and_then(|r| r.get("command")).and_then(|c| c.as_str()).unwrap_or_default();
-    match run.and_then(|r| r.get("seed")).or_else(|| top.get("seed")) {
-        Some(seed) => rows.push(("seed".to_string(), seed_text(seed))),
-        None => {}
+    if let Some(seed) = run.and_then(|r| r.get("seed")).or_else(|| top.get("seed")) {
+        rows.push(("seed".to_string(), seed_text(seed)));
     }
     for (flag, v) in settings.into_iter().flatten() {
         let text = if command == "compare" && flag == "adjust" {
