@@ -1,7 +1,10 @@
 //! `report.html`: one self-contained page per run (inline SVG and CSS, no script, nothing
 //! fetched), built from the files the command has just written into its output directory:
-//! the command line, the settings of its JSON, the engine and why, every table (TSV), every
-//! figure (SVG), the notes and warnings, and what the results do and do not say.
+//! the main results its JSON holds (simulate: scenario, summary per column, simulated against
+//! predicted; design: the cheapest design per statistic), the command line, the settings of
+//! the run record (each flag once), the engine and why (tallies per hypothesis or design),
+//! every table (TSV), every figure (SVG), the notes and warnings, and what the results do
+//! and do not say.
 //!
 //! Reading the run's own files keeps the page in step with them: whatever a command writes
 //! is what its page shows. Nothing time-dependent goes in, so the same run gives the same page.
@@ -131,7 +134,19 @@ pub fn render_report(dir: &Path, out: &Path, command: &str, argv: &[String]) -> 
         ver = env!("CARGO_PKG_VERSION"),
         dir = escape(&out.display().to_string()),
     );
-    body.push_str("<nav><a href=\"#inputs\">Inputs and settings</a> &middot; <a href=\"#engine\">Engine</a> &middot; <a href=\"#results\">Results</a> &middot; <a href=\"#tables\">Tables</a> &middot; <a href=\"#figures\">Figures</a> &middot; <a href=\"#notes\">Notes and cautions</a></nav>\n");
+    body.push_str("<nav><a href=\"#results\">Results</a> &middot; <a href=\"#inputs\">Inputs and settings</a> &middot; <a href=\"#engine\">Engine</a> &middot; <a href=\"#tables\">Tables</a> &middot; <a href=\"#figures\">Figures</a> &middot; <a href=\"#notes\">Notes and cautions</a></nav>\n");
+
+    if let Some(j) = &json {
+        // The column order of replicates.tsv (the summary follows it).
+        let order: Vec<String> = fs::read_to_string(dir.join("replicates.tsv"))
+            .ok()
+            .and_then(|t| t.lines().next().map(|h| h.split('\t').map(String::from).collect()))
+            .unwrap_or_default();
+        let results = results_html(command, j, &order);
+        let results =
+            if results.is_empty() { "<p>The tables and figures below hold the results.</p>\n".into() } else { results };
+        let _ = write!(body, "<section id=\"results\"><h2>Results</h2>\n{results}</section>\n");
+    }
 
     let _ = write!(
         body,
@@ -173,18 +188,6 @@ pub fn render_report(dir: &Path, out: &Path, command: &str, argv: &[String]) -> 
 
     let _ =
         write!(body, "<section id=\"engine\"><h2>Engine</h2>\n{}</section>\n", engine_html(json.as_ref(), text.engine));
-
-    if let Some(j) = &json {
-        // The column order of replicates.tsv (the summary follows it).
-        let order: Vec<String> = fs::read_to_string(dir.join("replicates.tsv"))
-            .ok()
-            .and_then(|t| t.lines().next().map(|h| h.split('\t').map(String::from).collect()))
-            .unwrap_or_default();
-        let results = results_html(command, j, &order);
-        let results =
-            if results.is_empty() { "<p>The tables and figures below hold the results.</p>\n".into() } else { results };
-        let _ = write!(body, "<section id=\"results\"><h2>Results</h2>\n{results}</section>\n");
-    }
 
     body.push_str("<section id=\"tables\"><h2>Tables</h2>\n");
     for p in files.iter().filter(|p| p.extension().is_some_and(|e| e == "tsv")) {
@@ -238,7 +241,7 @@ const STYLE: &str = "body{font-family:sans-serif;max-width:1100px;margin:1em aut
 h1{font-size:1.5em}h2{border-bottom:1px solid #ccc;margin-top:1.6em}.meta{color:#555}\
 pre{background:#f5f5f5;padding:.5em;overflow-x:auto;white-space:pre-wrap}\
 table{border-collapse:collapse;margin:.5em 0 1em;font-size:.9em}td,th{border:1px solid #ccc;padding:2px 6px;text-align:left}\
-th{background:#f0f0f0}td.num{text-align:right;font-variant-numeric:tabular-nums}\
+th{background:#f0f0f0}td.num{text-align:right;font-variant-numeric:tabular-nums;white-space:nowrap}\
 figure{margin:1em 0;border:1px solid #ddd;padding:.5em;display:inline-block;max-width:100%}\
 figure svg{max-width:100%;height:auto;display:block}.wide{overflow-x:auto}figcaption{color:#555;font-size:.85em}.why{color:#8a4b00}";
 
@@ -300,8 +303,20 @@ fn scenario_html(sc: &serde_json::Value) -> String {
     if let Some(demes) = m.get("demes").and_then(|v| v.as_array()).filter(|a| !a.is_empty()) {
         s.push_str("<table><thead><tr><th>deme</th><th>size N</th><th>dormancy law</th></tr></thead><tbody>\n");
         for d in demes {
-            let dormancy =
-                if d["dormancy"].is_null() { "none (no dormancy)".to_string() } else { compact(&d["dormancy"]) };
+            let dormancy = match d["dormancy"].as_object() {
+                None => "none (no dormancy)".to_string(),
+                // The law's name, then its parameters.
+                Some(law) => {
+                    let rest: serde_json::Map<String, serde_json::Value> =
+                        law.iter().filter(|(k, _)| *k != "law").map(|(k, v)| (k.clone(), v.clone())).collect();
+                    let name = law.get("law").map(compact).unwrap_or_default();
+                    if rest.is_empty() {
+                        name
+                    } else {
+                        format!("{name}: {}", compact(&serde_json::Value::Object(rest)))
+                    }
+                }
+            };
             let _ = writeln!(
                 s,
                 "<tr><td>{}</td><td>{}</td><td>{}</td></tr>",
@@ -689,7 +704,10 @@ fn settings_rows(j: &serde_json::Value) -> Vec<(String, String)> {
         {
             continue;
         }
-        let label = k.replace('_', " ");
+        let label = match k.as_str() {
+            "forests" => "forests (replicates that ended without an MRCA)".to_string(),
+            k => k.replace('_', " "),
+        };
         match v {
             serde_json::Value::String(s) if inputs.contains(s) => {}
             serde_json::Value::Object(m) if m.values().all(|x| scalar(x).is_some()) && !m.is_empty() => {
