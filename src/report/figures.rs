@@ -552,6 +552,7 @@ pub fn variance_growth(
         "exact Var(S_m)",
         fit,
         None,
-        SeriesLabelPosition::LowerRight,
+        // Var(S_m) grows with m: the upper left is where the data are not.
+        SeriesLabelPosition::UpperLeft,
     )
 }
