@@ -233,6 +233,153 @@ fn every_report_renders_in_a_headless_browser() {
     }
 }
 
+/// A number as the page shows it: six significant digits, trailing zeros dropped (written
+/// here independently of the page's own code).
+fn six_digits(x: f64) -> String {
+    let decimals = (5 - x.abs().log10().floor() as i32).clamp(0, 12) as usize;
+    let s = format!("{x:.decimals$}");
+    if s.contains('.') { s.trim_end_matches('0').trim_end_matches('.').to_string() } else { s }
+}
+
+fn json(path: &Path) -> serde_json::Value {
+    serde_json::from_str(&std::fs::read_to_string(path).unwrap()).unwrap()
+}
+
+/// What each page says, read against the JSON the run wrote (no browser needed): simulate's
+/// summary, comparison, scenario and notes; design's conclusion; the engine tallies of compare
+/// and design; settings shown once each by flag name; compare's adjustment said plainly.
+#[test]
+fn every_report_states_its_results_engines_and_settings() {
+    let dir = Path::new(env!("CARGO_TARGET_TMPDIR")).join(format!("report-content-{}", std::process::id()));
+    let _ = std::fs::remove_dir_all(&dir);
+    std::fs::create_dir_all(&dir).unwrap();
+    for d in ["examples", "scenarios"] {
+        std::os::unix::fs::symlink(Path::new(ROOT).join(d), dir.join(d)).unwrap();
+    }
+    seedline(&dir, &["simulate", "scenarios/no-dormancy-baseline.yaml", "--replicates", "30", "--out", "simulate"]);
+    // 36 sequences: beyond the lineage chain, so no SFS prediction (the pair ones remain).
+    seedline(&dir, &["simulate", "scenarios/lake-resting-eggs.yaml", "--replicates", "4", "--out", "lake"]);
+    seedline(&dir, &["observe", "examples/data.vcf.gz", "--samples", "examples/map.tsv", "--out", "observed"]);
+    seedline(
+        &dir,
+        &[
+            "compare",
+            "observed/observed.json",
+            "--hypotheses",
+            "examples/h-none.yaml",
+            "examples/h-pareto.yaml",
+            "--simulations",
+            "60",
+            "--tolerance",
+            "0.5",
+            "--out",
+            "compare",
+        ],
+    );
+    seedline(
+        &dir,
+        &[
+            "design",
+            "--null",
+            "examples/h-none.yaml",
+            "--alternative",
+            "examples/h-pareto.yaml",
+            "--designs",
+            "examples/designs.yaml",
+            "--replicates",
+            "30",
+            "--power-replicates",
+            "20",
+            "--statistics",
+            "pi,tajima_d",
+            "--out",
+            "design",
+        ],
+    );
+    let page = |out: &str| std::fs::read_to_string(dir.join(out).join("report.html")).unwrap();
+
+    // simulate: the summary row of pi carries the mean of summary.json.
+    let summary = json(&dir.join("simulate/summary.json"));
+    let sim = page("simulate");
+    let mean = summary["columns"]["pi"]["mean"].as_f64().unwrap();
+    let row = format!("<tr><td><code>pi</code></td><td class=\"num\">{}</td>", six_digits(mean));
+    assert!(sim.contains("Summary over replicates") && sim.contains(&row), "no summary row {row}");
+    let sd = summary["columns"]["tmrca"]["sd"].as_f64().unwrap();
+    assert!(sim.contains(&format!("<td class=\"num\">{}</td>", six_digits(sd))), "the sd of tmrca");
+    // The comparison: every quantity with its verdict.
+    assert!(sim.contains("Simulated against predicted"));
+    for c in summary["comparison"].as_array().unwrap() {
+        let q = c["quantity"].as_str().unwrap();
+        let v = c["verdict"].as_str().unwrap();
+        assert!(sim.contains(&format!("<td><code>{q}</code></td>")) && sim.contains(v), "comparison of {q}");
+    }
+    // The scenario: deme, its size and dormancy, the sample.
+    assert!(sim.contains("<th>deme</th><th>size N</th><th>dormancy law</th>"));
+    assert!(sim.contains("<td>plain</td>"), "the deme of the baseline scenario");
+    // Settings: each flag once, by name; no raw dump.
+    assert_eq!(sim.matches("<th>--replicates</th><td>30</td>").count(), 1);
+    for raw in ["run.seed", "run.settings", "provenance.", "<th>replicates</th>"] {
+        assert!(!sim.contains(raw), "simulate settings still show {raw}");
+    }
+
+    // simulate without an SFS prediction: the note of the prediction, the figure says so.
+    let lake = page("lake");
+    let summary = json(&dir.join("lake/summary.json"));
+    let note = summary["prediction"]["notes"][0].as_str().unwrap();
+    assert!(note.contains("n <= 25"), "{note}");
+    assert!(
+        lake.contains(&format!("<li>{}</li>", note.replace('<', "&lt;").replace('>', "&gt;"))),
+        "the prediction's note"
+    );
+    assert!(lake.contains("No predicted SFS is drawn: T_MRCA, length and SFS"));
+    let sfs = std::fs::read_to_string(dir.join("lake/sfs.svg")).unwrap();
+    assert!(sfs.contains("no prediction drawn") && !sfs.contains("against predicted"), "sfs.svg's title");
+    assert!(sfs.contains("no predicted SFS for this sample"), "sfs.svg's legend");
+    assert!(lake.contains("no prediction drawn"), "the figure is in the page");
+
+    // design: the conclusion per statistic, and the engine tallies per design.
+    let d = json(&dir.join("design/design.json"));
+    let des = page("design");
+    assert!(des.contains("<h3 id=\"conclusion\">Conclusion</h3>"));
+    for c in d["cheapest_reaching_target"].as_array().unwrap() {
+        let stat = c["statistic"].as_str().unwrap();
+        let said = match c["design"].as_str() {
+            Some(design) => format!("<li>{stat}: {design} (cost "),
+            None => format!("<li>{stat}: no design reaches power 0.8"),
+        };
+        assert!(des.contains(&said), "design conclusion: {said}");
+    }
+    for e in d["engines"].as_array().unwrap() {
+        for side in ["null", "alternative"] {
+            let runs = e[side]["runs"].as_object().unwrap();
+            let total: u64 = runs.values().map(|n| n.as_u64().unwrap()).sum();
+            for (engine, n) in runs {
+                assert!(des.contains(&format!("{engine} for {n} of {total} runs")), "design engine tally {e}");
+            }
+        }
+    }
+    assert!(des.contains("null: no dormancy") && des.contains("alternative: power-law resting eggs"));
+
+    // compare: the tallies per hypothesis, the hypothesis names, the adjustment said plainly.
+    let c = json(&dir.join("compare/compare.json"));
+    let cmp = page("compare");
+    for h in c["hypotheses"].as_array().unwrap() {
+        let runs = h["engine"]["runs"].as_object().unwrap();
+        let total: u64 = runs.values().map(|n| n.as_u64().unwrap()).sum();
+        for (engine, n) in runs {
+            assert!(cmp.contains(&format!("{engine} for {n} of {total} runs")), "compare engine tally {h}");
+        }
+    }
+    assert!(cmp.contains("h-none: no dormancy") && cmp.contains("h-pareto: power-law resting eggs"));
+    assert!(
+        cmp.contains(
+            "model-choice adjustment: none (rejection shares); parameters: local-linear regression adjustment"
+        )
+    );
+    assert!(!cmp.contains("<th>adjust</th>") && !cmp.contains("run.settings"));
+    let _ = std::fs::remove_dir_all(&dir);
+}
+
 #[test]
 fn probe_output_is_parsed() {
     let p = parse_probe("<pre id=\"probe\">FIGURES 720x480x31 640x400x9 ;HEIGHT 2400 ;ERRORS 0 </pre>");

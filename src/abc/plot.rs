@@ -74,6 +74,8 @@ pub fn model_bars(names: &[String], shares: &[ModelShare]) -> String {
         let labels: Vec<String> = names.to_vec();
         let _ = chart
             .configure_mesh()
+            // No minor grid: it made grey bands.
+            .light_line_style(TRANSPARENT)
             .disable_x_mesh()
             .x_labels(n)
             .x_label_formatter(&|x| match x {
@@ -173,11 +175,27 @@ pub fn posterior_density(hypothesis: &str, post: &ParameterPosterior, prior: &Pr
         let y_desc = if log { "density of log10 value" } else { "density" };
         let _ = chart
             .configure_mesh()
+            // No minor grid: it made grey bands.
+            .light_line_style(TRANSPARENT)
+            // On the log axis the ticks are drawn below, at round values of θ (1-2-5), not at
+            // round logarithms.
+            .x_labels(if log { 0 } else { 10 })
             .x_label_formatter(&tick)
             .y_label_formatter(&|y| sig(*y, 3))
             .x_desc(format!("{}{scale}", post.parameter))
             .y_desc(y_desc)
             .draw();
+        if log {
+            let style = centred(12).pos(plotters::style::text_anchor::Pos::new(
+                plotters::style::text_anchor::HPos::Center,
+                plotters::style::text_anchor::VPos::Top,
+            ));
+            for t in crate::report::figures::log_ticks(10f64.powf(lo), 10f64.powf(hi)) {
+                let (px, py) = chart.backend_coord(&(t.log10(), 0.0));
+                let _ = root.draw(&PathElement::new([(px, py), (px, py + 5)], BLACK.stroke_width(1)));
+                let _ = root.draw(&Text::new(sig(t, 3), (px, py + 7), style.clone()));
+            }
+        }
         let _ = chart
             .draw_series(h.iter().enumerate().map(|(i, &d)| {
                 let x0 = lo + i as f64 * width;
@@ -254,22 +272,26 @@ pub fn power_curve(statistic: &str, rows: &[&PowerRow], target: f64) -> String {
     let n = pts.len().max(1);
     let labels: Vec<String> = pts.iter().map(|r| format!("{} (cost {})", r.design, sig(r.cost, 4))).collect();
     let widest = labels.iter().map(|l| l.chars().count()).max().unwrap_or(10) as u32;
-    let height = (180 + 45 * n as u32).max(320);
+    // The legend sits below the plot (no empty design slot above the top one).
+    let height = (160 + 45 * n as u32).max(280) + 60;
     let mut svg = String::new();
     {
         let root = SVGBackend::with_string(&mut svg, (SIZE.0.max(widest * 7 + 420), height)).into_drawing_area();
         let _ = root.fill(&WHITE);
-        let chart = ChartBuilder::on(&root)
+        let (plot, below) = root.split_vertically(height - 60);
+        let chart = ChartBuilder::on(&plot)
             .caption(format!("Power of {statistic} per design (target {})", sig(target, 3)), ("sans-serif", 18))
             .margin(12)
             .margin_right(25)
             .x_label_area_size(45)
             .y_label_area_size(widest * 7 + 20)
-            // 0..n has n + 1 slots: the top one stays free for the legend.
-            .build_cartesian_2d(0f64..1.0f64, (0..n).into_segmented());
+            // 0..k has k + 1 slots: one per design.
+            .build_cartesian_2d(0f64..1.0f64, (0..n.max(2) - 1).into_segmented());
         let Ok(mut chart) = chart else { return svg_fallback() };
         let _ = chart
             .configure_mesh()
+            // No minor grid: it made grey bands.
+            .light_line_style(TRANSPARENT)
             .disable_y_mesh()
             .y_labels(n)
             .y_label_formatter(&|y| match y {
@@ -286,44 +308,33 @@ pub fn power_curve(statistic: &str, rows: &[&PowerRow], target: f64) -> String {
                 BLACK.stroke_width(1),
             )
         }));
-        let _ = chart
-            .draw_series(pts.iter().enumerate().flat_map(|(i, r)| {
-                [r.low_95, r.high_95].map(|x| {
-                    EmptyElement::at((x, SegmentValue::CenterOf(i)))
-                        + PathElement::new([(0, -8), (0, 8)], BLACK.stroke_width(1))
-                })
-            }))
-            .map(|a| {
-                a.label("Wilson 95% interval")
-                    .legend(|(x, y)| PathElement::new([(x, y), (x + 18, y)], BLACK.stroke_width(1)))
-            });
-        let _ = chart
-            .draw_series(
-                pts.iter()
-                    .enumerate()
-                    .map(|(i, r)| Circle::new((r.power, SegmentValue::CenterOf(i)), 5, BLUE.filled())),
-            )
-            .map(|a| a.label("power").legend(|(x, y)| Circle::new((x + 9, y), 5, BLUE.filled())));
+        let _ = chart.draw_series(pts.iter().enumerate().flat_map(|(i, r)| {
+            [r.low_95, r.high_95].map(|x| {
+                EmptyElement::at((x, SegmentValue::CenterOf(i)))
+                    + PathElement::new([(0, -8), (0, 8)], BLACK.stroke_width(1))
+            })
+        }));
+        let _ = chart.draw_series(
+            pts.iter().enumerate().map(|(i, r)| Circle::new((r.power, SegmentValue::CenterOf(i)), 5, BLUE.filled())),
+        );
         let _ = chart.draw_series(pts.iter().enumerate().map(|(i, r)| {
             EmptyElement::at((r.power, SegmentValue::CenterOf(i))) + Text::new(sig(r.power, 2), (0, -8), centred(12))
         }));
-        let _ = chart
-            .draw_series(DashedLineSeries::new(
-                vec![(target, SegmentValue::Exact(0)), (target, SegmentValue::Last)],
-                8,
-                4,
-                RED.stroke_width(2),
-            ))
-            .map(|a| {
-                a.label(format!("target power {}", sig(target, 3)))
-                    .legend(|(x, y)| PathElement::new([(x, y), (x + 18, y)], RED.stroke_width(2)))
-            });
-        let _ = chart
-            .configure_series_labels()
-            .position(SeriesLabelPosition::UpperRight)
-            .background_style(WHITE.mix(0.85))
-            .border_style(BLACK)
-            .draw();
+        let _ = chart.draw_series(DashedLineSeries::new(
+            vec![(target, SegmentValue::Exact(0)), (target, SegmentValue::Last)],
+            8,
+            4,
+            RED.stroke_width(2),
+        ));
+        use crate::report::figures::Key;
+        let _ = crate::report::figures::legend_strip(
+            &below,
+            &[
+                (Key::Dot(BLUE), "power".to_string()),
+                (Key::Line(BLACK, 1), "Wilson 95% interval".to_string()),
+                (Key::Line(RED, 2), format!("target power {}", sig(target, 3))),
+            ],
+        );
         let _ = root.present();
     }
     svg

@@ -10,6 +10,111 @@ fn quantile(sorted: &[f64], q: f64) -> f64 {
     if i + 1 < sorted.len() { sorted[i] + f * (sorted[i + 1] - sorted[i]) } else { sorted[i] }
 }
 
+/// Round tick values for a log axis from `lo` to `hi` (both > 0): 1-2-5 in each decade, or
+/// the decades alone when those are too many, or 1..9 when the range is narrow.
+pub fn log_ticks(lo: f64, hi: f64) -> Vec<f64> {
+    if !(lo > 0.0 && hi > lo && hi.is_finite()) {
+        return Vec::new();
+    }
+    let (e0, e1) = (lo.log10().floor() as i32, hi.log10().ceil() as i32);
+    let within = |ms: &[f64]| -> Vec<f64> {
+        (e0..=e1)
+            .flat_map(|e| ms.iter().map(move |m| m * 10f64.powi(e)))
+            // Rounded to what the label shows, so that 0.1 is printed once.
+            .map(|v| sig(v, 3).parse::<f64>().unwrap_or(v))
+            .filter(|v| *v >= lo * (1.0 - 1e-9) && *v <= hi * (1.0 + 1e-9))
+            .collect()
+    };
+    let ticks = within(&[1.0, 2.0, 5.0]);
+    if ticks.len() > 10 {
+        within(&[1.0])
+    } else if ticks.len() < 3 {
+        let fine = within(&[1.0, 2.0, 3.0, 4.0, 5.0, 6.0, 7.0, 8.0, 9.0]);
+        if fine.len() >= 2 { fine } else { vec![sig(lo, 3).parse().unwrap_or(lo), sig(hi, 3).parse().unwrap_or(hi)] }
+    } else {
+        ticks
+    }
+}
+
+/// What the x axis of a statistic's null histogram shows: how the genome-wide value is
+/// formed from the loci (as `stats::combined_column_values` forms it) and its unit.
+pub fn statistic_axis_label(name: &str) -> String {
+    let per_locus = |stat: &str| match stat {
+        "pi" => "π (pairwise differences)",
+        "segregating_sites" => "S (segregating sites)",
+        "tajima_d" => "Tajima's D",
+        "theta_w" => "θ_W (Watterson)",
+        "fay_wu_h" => "Fay & Wu's H (differences)",
+        _ => "value",
+    };
+    if let Some(stat) = name.strip_suffix("_locus_mean") {
+        return format!("{name}: mean over loci of the per-locus {}", per_locus(stat));
+    }
+    if let Some(stat) = name.strip_suffix("_locus_var") {
+        return format!("{name}: variance across loci of the per-locus {}", per_locus(stat));
+    }
+    if let Some(i) = name.strip_prefix("xi_").or_else(|| name.strip_prefix("sfs_")) {
+        return format!("{name}: sites with {i} derived alleles (summed over loci)");
+    }
+    if let Some(i) = name.strip_prefix("eta_") {
+        return format!("{name}: sites with minor-allele count {i} (summed over loci)");
+    }
+    if let Some(deme) = name.strip_prefix("pi_") {
+        return format!("{name}: π within deme {deme} (pairwise differences, summed over loci)");
+    }
+    if let Some(pair) = name.strip_prefix("fst_") {
+        return format!("{name}: F_ST of {} (ratio of sums over loci; no unit)", pair.replace('_', " and "));
+    }
+    let what = match name {
+        "segregating_sites" => "segregating sites S (sites, summed over loci)",
+        "pi" => "π, mean pairwise differences (summed over loci)",
+        "theta_w" => "θ_W = S / a_n (summed over loci)",
+        "tajima_d" => "Tajima's D of the summed SFS (no unit)",
+        "fay_wu_h" => "Fay & Wu's H = π − θ_H (differences, summed over loci)",
+        "fay_wu_h_norm" => "normalised Fay & Wu's H of the summed SFS (no unit)",
+        "haplotypes" => "distinct haplotypes per locus (mean over loci)",
+        "sfs_chi2" => "chi-square distance of the SFS to the null mean (no unit)",
+        _ => return name.to_string(),
+    };
+    format!("{name}: {what}")
+}
+
+/// A key of a legend drawn outside the plot.
+pub(crate) enum Key {
+    Bar(RGBAColor),
+    Line(RGBColor, u32),
+    Dashed,
+    Dot(RGBColor),
+}
+
+/// A legend below the plot, two entries a row, so that it hides no data.
+pub(crate) fn legend_strip<DB: DrawingBackend>(
+    area: &DrawingArea<DB, plotters::coord::Shift>,
+    items: &[(Key, String)],
+) -> Option<()> {
+    let (w, _) = area.dim_in_pixel();
+    let col = (w as i32 - 40) / 2;
+    for (k, (key, label)) in items.iter().enumerate() {
+        let (x, y) = (30 + (k as i32 % 2) * col, 14 + (k as i32 / 2) * 22);
+        match key {
+            Key::Bar(c) => area.draw(&Rectangle::new([(x, y - 6), (x + 20, y + 6)], c.filled())).ok()?,
+            Key::Line(c, width) => area.draw(&PathElement::new([(x, y), (x + 20, y)], c.stroke_width(*width))).ok()?,
+            Key::Dot(c) => area.draw(&Circle::new((x + 10, y), 5, c.filled())).ok()?,
+            Key::Dashed => {
+                for d in [0, 8, 16] {
+                    area.draw(&PathElement::new([(x + d, y), (x + d + 5, y)], BLACK.stroke_width(1))).ok()?;
+                }
+            }
+        }
+        let style = TextStyle::from(("sans-serif", 14).into_font()).pos(plotters::style::text_anchor::Pos::new(
+            plotters::style::text_anchor::HPos::Left,
+            plotters::style::text_anchor::VPos::Center,
+        ));
+        area.draw(&Text::new(label.clone(), (x + 28, y), style)).ok()?;
+    }
+    Some(())
+}
+
 /// The observed site frequency spectrum over the null's central 95% band and mean, entry by
 /// entry (`kind` is `unfolded` or `folded`), with the goodness-of-fit p-value.
 pub fn sfs_band(kind: &str, observed: &[f64], null_rows: &[Vec<f64>], p_value: Option<f64>) -> anyhow::Result<String> {
@@ -42,6 +147,8 @@ pub fn sfs_band(kind: &str, observed: &[f64], null_rows: &[Vec<f64>], p_value: O
         let entry = if kind == "folded" { "minor-allele count i (eta_i)" } else { "derived-allele count i (xi_i)" };
         chart
             .configure_mesh()
+            // No minor grid: it made grey bands.
+            .light_line_style(TRANSPARENT)
             .x_labels(k.min(20))
             .x_label_formatter(&|x| if x.fract() == 0.0 { format!("{x:.0}") } else { String::new() })
             .x_desc(entry)
@@ -87,8 +194,11 @@ pub fn sfs_band(kind: &str, observed: &[f64], null_rows: &[Vec<f64>], p_value: O
 pub fn null_histogram(name: &str, null: &[f64], observed: Option<f64>, p_value: Option<f64>) -> anyhow::Result<String> {
     let mut svg = String::new();
     {
-        let root = SVGBackend::with_string(&mut svg, (640, 400)).into_drawing_area();
+        let root = SVGBackend::with_string(&mut svg, (640, 450)).into_drawing_area();
         root.fill(&WHITE).map_err(|e| anyhow::anyhow!("drawing {name}: {e}"))?;
+        // The legend goes below the plot: over it, it hid the peak or the observed line.
+        let (plot, below) = root.split_vertically(395);
+        let mut keys: Vec<(Key, String)> = Vec::new();
         // Only finite values can be binned (an infinite range would never end the axis).
         let finite: Vec<f64> = null.iter().copied().filter(|x| x.is_finite()).collect();
         let null = finite.as_slice();
@@ -114,7 +224,7 @@ pub fn null_histogram(name: &str, null: &[f64], observed: Option<f64>, p_value: 
             counts[(((x - lo) / width) as usize).min(bins - 1)] += 1;
         }
         let top = counts.iter().copied().max().unwrap_or(1).max(1);
-        let mut chart = ChartBuilder::on(&root)
+        let mut chart = ChartBuilder::on(&plot)
             .caption(
                 match p_value {
                     Some(p) => format!("{name}: observed against the null (two-sided p = {})", sig(p, 3)),
@@ -129,7 +239,9 @@ pub fn null_histogram(name: &str, null: &[f64], observed: Option<f64>, p_value: 
             .map_err(|e| anyhow::anyhow!("drawing {name}: {e}"))?;
         chart
             .configure_mesh()
-            .x_desc(format!("{name} (summed over loci where it adds up)"))
+            // No minor grid: it made grey bands.
+            .light_line_style(TRANSPARENT)
+            .x_desc(statistic_axis_label(name))
             .y_desc(format!("null replicates (of {})", null.len()))
             .draw()
             .map_err(|e| anyhow::anyhow!("drawing {name}: {e}"))?;
@@ -138,39 +250,31 @@ pub fn null_histogram(name: &str, null: &[f64], observed: Option<f64>, p_value: 
                 let x0 = lo + i as f64 * width;
                 Rectangle::new([(x0, 0), (x0 + width, c)], RGBColor(120, 150, 190).filled())
             }))
-            .map_err(|e| anyhow::anyhow!("drawing {name}: {e}"))?
-            .label(format!("null distribution ({} replicates)", null.len()))
-            .legend(|(x, y)| Rectangle::new([(x, y - 5), (x + 18, y + 5)], RGBColor(120, 150, 190).filled()));
+            .map_err(|e| anyhow::anyhow!("drawing {name}: {e}"))?;
+        keys.push((
+            Key::Bar(RGBColor(120, 150, 190).to_rgba()),
+            format!("null distribution ({} replicates)", null.len()),
+        ));
         let ymax = top + top / 10 + 1;
         if null.len() >= 2 {
             let mut sorted = null.to_vec();
             sorted.sort_by(f64::total_cmp);
             let (q_lo, q_hi) = (quantile(&sorted, 0.025), quantile(&sorted, 0.975));
-            for (k, q) in [q_lo, q_hi].into_iter().enumerate() {
-                let a = chart
+            for q in [q_lo, q_hi] {
+                chart
                     .draw_series(DashedLineSeries::new([(q, 0), (q, ymax)], 6, 4, BLACK.stroke_width(1)))
                     .map_err(|e| anyhow::anyhow!("drawing {name}: {e}"))?;
-                if k == 0 {
-                    a.label(format!("null central 95% [{}, {}]", sig(q_lo, 4), sig(q_hi, 4)))
-                        .legend(|(x, y)| PathElement::new([(x, y), (x + 18, y)], BLACK.stroke_width(1)));
-                }
             }
+            keys.push((Key::Dashed, format!("null central 95% [{}, {}]", sig(q_lo, 4), sig(q_hi, 4))));
         }
         if let Some(o) = observed {
             let p = p_value.map_or(String::new(), |p| format!(", p = {}", sig(p, 3)));
             chart
                 .draw_series(LineSeries::new([(o, 0), (o, ymax)], RED.stroke_width(3)))
-                .map_err(|e| anyhow::anyhow!("drawing {name}: {e}"))?
-                .label(format!("observed {}{p}", sig(o, 4)))
-                .legend(|(x, y)| PathElement::new([(x, y), (x + 18, y)], RED.stroke_width(3)));
+                .map_err(|e| anyhow::anyhow!("drawing {name}: {e}"))?;
+            keys.push((Key::Line(RED, 3), format!("observed {}{p}", sig(o, 4))));
         }
-        chart
-            .configure_series_labels()
-            .position(SeriesLabelPosition::UpperRight)
-            .background_style(WHITE.mix(0.85))
-            .border_style(BLACK)
-            .draw()
-            .map_err(|e| anyhow::anyhow!("drawing {name}: {e}"))?;
+        legend_strip(&below, &keys).ok_or_else(|| anyhow::anyhow!("drawing the legend of {name}"))?;
         root.present().map_err(|e| anyhow::anyhow!("drawing {name}: {e}"))?;
     }
     Ok(svg)
@@ -197,7 +301,13 @@ pub fn sfs_simulated(
             .fold(1e-9f64, f64::max)
             * 1.15;
         let mut chart = ChartBuilder::on(&root)
-            .caption(format!("Unfolded SFS: simulated ({replicates} replicates) against predicted"), ("sans-serif", 18))
+            .caption(
+                match predicted {
+                    Some(_) => format!("Unfolded SFS: simulated ({replicates} replicates) against predicted"),
+                    None => format!("Unfolded SFS: simulated ({replicates} replicates); no prediction drawn"),
+                },
+                ("sans-serif", 18),
+            )
             .margin(12)
             .x_label_area_size(45)
             .y_label_area_size(60)
@@ -205,6 +315,8 @@ pub fn sfs_simulated(
             .map_err(|e| err(&e))?;
         chart
             .configure_mesh()
+            // No minor grid: it made grey bands.
+            .light_line_style(TRANSPARENT)
             .x_labels(k.min(20))
             .x_label_formatter(&|x| if x.fract() == 0.0 { format!("{x:.0}") } else { String::new() })
             .x_desc("derived-allele count i (xi_i)")
@@ -235,6 +347,13 @@ pub fn sfs_simulated(
                 .map_err(|e| err(&e))?
                 .label(format!("predicted ({label})"))
                 .legend(|(x, y)| PathElement::new([(x, y), (x + 18, y)], RED.stroke_width(2)));
+        } else {
+            // Said in the legend too: an absent line must not read as a line hidden by the points.
+            chart
+                .draw_series(std::iter::empty::<Circle<(f64, f64), i32>>())
+                .map_err(|e| err(&e))?
+                .label("no predicted SFS for this sample (see the run's notes)")
+                .legend(|(x, y)| Text::new("-", (x + 6, y - 8), ("sans-serif", 14)));
         }
         chart
             .configure_series_labels()
@@ -286,6 +405,7 @@ fn loglog_figure(
     predicted_label: &str,
     fit: Option<PowerLawFit>,
     y_range: Option<(f64, f64)>,
+    legend_at: SeriesLabelPosition,
 ) -> anyhow::Result<String> {
     let mut svg = String::new();
     {
@@ -301,10 +421,16 @@ fn loglog_figure(
             .margin(12)
             .x_label_area_size(45)
             .y_label_area_size(70)
-            .build_cartesian_2d((x0..x1).log_scale(), (y0..y1).log_scale())
+            // Ticks at round 1-2-5 values, no minor grid (it made grey bands).
+            .build_cartesian_2d(
+                (x0..x1).log_scale().with_key_points(log_ticks(x0, x1)),
+                (y0..y1).log_scale().with_key_points(log_ticks(y0, y1)),
+            )
             .map_err(|e| err(&e))?;
         chart
             .configure_mesh()
+            // No minor grid: it made grey bands.
+            .light_line_style(TRANSPARENT)
             .x_label_formatter(&|x| sig(*x, 3))
             .y_label_formatter(&|y| sig(*y, 3))
             .x_desc(x_desc)
@@ -313,14 +439,21 @@ fn loglog_figure(
             .map_err(|e| err(&e))?;
         let inside = |v: f64| v.is_finite() && v > 0.0;
         let shown: Vec<&(f64, f64, Option<f64>)> = simulated.iter().filter(|p| inside(p.0) && inside(p.1)).collect();
+        // Bars clipped to the plot; a lower end at or below 0 has no place on a log axis, so
+        // such a bar is drawn upward only.
+        let one_sided = shown.iter().any(|p| p.2.is_some_and(|se| p.1 - 2.0 * se <= 0.0));
         chart
             .draw_series(shown.iter().filter_map(|p| {
                 let se = p.2?;
-                let lo = (p.1 - 2.0 * se).max(y0);
-                Some(PathElement::new([(p.0, lo), (p.0, (p.1 + 2.0 * se).min(y1))], BLACK.stroke_width(1)))
+                let lo = if p.1 - 2.0 * se > 0.0 { (p.1 - 2.0 * se).clamp(y0, y1) } else { p.1.clamp(y0, y1) };
+                Some(PathElement::new([(p.0, lo), (p.0, (p.1 + 2.0 * se).clamp(y0, y1))], BLACK.stroke_width(1)))
             }))
             .map_err(|e| err(&e))?
-            .label("± 2 standard errors")
+            .label(if one_sided {
+                "± 2 standard errors (upper half only where the lower end is <= 0)"
+            } else {
+                "± 2 standard errors"
+            })
             .legend(|(x, y)| PathElement::new([(x + 9, y - 6), (x + 9, y + 6)], BLACK.stroke_width(1)));
         chart
             .draw_series(shown.iter().map(|p| Circle::new((p.0, p.1), 3, BLUE.filled())))
@@ -345,7 +478,7 @@ fn loglog_figure(
         }
         chart
             .configure_series_labels()
-            .position(SeriesLabelPosition::LowerRight)
+            .position(legend_at)
             .background_style(WHITE.mix(0.85))
             .border_style(BLACK)
             .draw()
@@ -367,6 +500,8 @@ pub fn relatedness_by_lag(simulated: &[(f64, f64, Option<f64>)], predicted: &[(f
         "predicted (renewal theory)",
         None,
         None,
+        // Relatedness falls with the lag: the upper right is where the data are not.
+        SeriesLabelPosition::UpperRight,
     )
 }
 
@@ -383,6 +518,7 @@ pub fn mrca_depth(lag: usize, simulated: &[(f64, f64, Option<f64>)], limit: &[(f
         None,
         // A CDF: two decades below 1 keep the ticks readable.
         Some((0.01, 1.1)),
+        SeriesLabelPosition::LowerRight,
     )
 }
 
@@ -416,5 +552,7 @@ pub fn variance_growth(
         "exact Var(S_m)",
         fit,
         None,
+        // Var(S_m) grows with m: the upper left is where the data are not.
+        SeriesLabelPosition::UpperLeft,
     )
 }

@@ -1,7 +1,10 @@
 //! `report.html`: one self-contained page per run (inline SVG and CSS, no script, nothing
 //! fetched), built from the files the command has just written into its output directory:
-//! the command line, the settings of its JSON, the engine and why, every table (TSV), every
-//! figure (SVG), the notes and warnings, and what the results do and do not say.
+//! the main results its JSON holds (simulate: scenario, summary per column, simulated against
+//! predicted; design: the cheapest design per statistic), the command line, the settings of
+//! the run record (each flag once), the engine and why (tallies per hypothesis or design),
+//! every table (TSV), every figure (SVG), the notes and warnings, and what the results do
+//! and do not say.
 //!
 //! Reading the run's own files keeps the page in step with them: whatever a command writes
 //! is what its page shows. Nothing time-dependent goes in, so the same run gives the same page.
@@ -131,7 +134,19 @@ pub fn render_report(dir: &Path, out: &Path, command: &str, argv: &[String]) -> 
         ver = env!("CARGO_PKG_VERSION"),
         dir = escape(&out.display().to_string()),
     );
-    body.push_str("<nav><a href=\"#inputs\">Inputs and settings</a> &middot; <a href=\"#engine\">Engine</a> &middot; <a href=\"#tables\">Tables</a> &middot; <a href=\"#figures\">Figures</a> &middot; <a href=\"#notes\">Notes and cautions</a></nav>\n");
+    body.push_str("<nav><a href=\"#results\">Results</a> &middot; <a href=\"#inputs\">Inputs and settings</a> &middot; <a href=\"#engine\">Engine</a> &middot; <a href=\"#tables\">Tables</a> &middot; <a href=\"#figures\">Figures</a> &middot; <a href=\"#notes\">Notes and cautions</a></nav>\n");
+
+    if let Some(j) = &json {
+        // The column order of replicates.tsv (the summary follows it).
+        let order: Vec<String> = fs::read_to_string(dir.join("replicates.tsv"))
+            .ok()
+            .and_then(|t| t.lines().next().map(|h| h.split('\t').map(String::from).collect()))
+            .unwrap_or_default();
+        let results = results_html(command, j, &order);
+        let results =
+            if results.is_empty() { "<p>The tables and figures below hold the results.</p>\n".into() } else { results };
+        let _ = write!(body, "<section id=\"results\"><h2>Results</h2>\n{results}</section>\n");
+    }
 
     let _ = write!(
         body,
@@ -171,12 +186,8 @@ pub fn render_report(dir: &Path, out: &Path, command: &str, argv: &[String]) -> 
     }
     body.push_str("</section>\n");
 
-    let engine = json.as_ref().and_then(engine_text).unwrap_or_else(|| text.engine.to_string());
-    let _ = write!(
-        body,
-        "<section id=\"engine\"><h2>Engine</h2>\n<p>{}</p></section>\n",
-        escape(if engine.is_empty() { "Not recorded." } else { &engine })
-    );
+    let _ =
+        write!(body, "<section id=\"engine\"><h2>Engine</h2>\n{}</section>\n", engine_html(json.as_ref(), text.engine));
 
     body.push_str("<section id=\"tables\"><h2>Tables</h2>\n");
     for p in files.iter().filter(|p| p.extension().is_some_and(|e| e == "tsv")) {
@@ -191,11 +202,16 @@ pub fn render_report(dir: &Path, out: &Path, command: &str, argv: &[String]) -> 
     }
     for p in svgs {
         let svg = fs::read_to_string(p).with_context(|| format!("cannot read {}", p.display()))?;
+        let why = match (&json, p.file_name().and_then(|n| n.to_str())) {
+            (Some(j), Some("sfs.svg")) if command == "simulate" => no_sfs_prediction(j),
+            _ => None,
+        };
         let _ = write!(
             body,
-            "<figure>\n{}\n<figcaption>{}</figcaption></figure>\n",
+            "<figure>\n{}\n<figcaption>{}{}</figcaption></figure>\n",
             inline_svg(&svg),
-            escape(&relative(dir, p))
+            escape(&relative(dir, p)),
+            why.map_or(String::new(), |w| format!("<br><span class=\"why\">{}</span>", escape(&w)))
         );
     }
     body.push_str("</section>\n");
@@ -225,9 +241,350 @@ const STYLE: &str = "body{font-family:sans-serif;max-width:1100px;margin:1em aut
 h1{font-size:1.5em}h2{border-bottom:1px solid #ccc;margin-top:1.6em}.meta{color:#555}\
 pre{background:#f5f5f5;padding:.5em;overflow-x:auto;white-space:pre-wrap}\
 table{border-collapse:collapse;margin:.5em 0 1em;font-size:.9em}td,th{border:1px solid #ccc;padding:2px 6px;text-align:left}\
-th{background:#f0f0f0}td.num{text-align:right;font-variant-numeric:tabular-nums}\
+th{background:#f0f0f0}td.num{text-align:right;font-variant-numeric:tabular-nums;white-space:nowrap}\
 figure{margin:1em 0;border:1px solid #ddd;padding:.5em;display:inline-block;max-width:100%}\
-figure svg{max-width:100%;height:auto;display:block}.wide{overflow-x:auto}figcaption{color:#555;font-size:.85em}";
+figure svg{max-width:100%;height:auto;display:block}.wide{overflow-x:auto}figcaption{color:#555;font-size:.85em}.why{color:#8a4b00}";
+
+/// The main results a command's JSON holds beyond its tables: for `simulate` the scenario,
+/// the summary of every column and the comparison with theory; for `design` the conclusion.
+fn results_html(command: &str, j: &serde_json::Value, order: &[String]) -> String {
+    let mut s = String::new();
+    match command {
+        "simulate" => {
+            s.push_str(&scenario_html(&j["scenario"]));
+            s.push_str(&summary_html(&j["columns"], j["replicates"].as_u64(), order));
+            s.push_str(&comparison_html(&j["comparison"]));
+        }
+        "design" => s.push_str(&conclusion_html(j)),
+        _ => {}
+    }
+    s
+}
+
+/// A JSON value as short text: numbers to six significant digits, lists in brackets,
+/// objects as `key value` pairs.
+fn compact(v: &serde_json::Value) -> String {
+    match v {
+        serde_json::Value::Number(n) => {
+            let t = n.to_string();
+            n.as_f64().map_or(t.clone(), |x| short_number(&t, x))
+        }
+        serde_json::Value::Array(a) => format!("[{}]", a.iter().map(compact).collect::<Vec<_>>().join(", ")),
+        serde_json::Value::Object(m) => m
+            .iter()
+            .filter(|(_, v)| !v.is_null())
+            .map(|(k, v)| format!("{k} {}", compact(v)))
+            .collect::<Vec<_>>()
+            .join(", "),
+        v => scalar(v).unwrap_or_default(),
+    }
+}
+
+/// A share (power, probability) to three significant digits.
+fn sig3(v: &serde_json::Value) -> String {
+    v.as_f64().map_or_else(|| compact(v), |x| crate::abc::plot::sig(x, 3))
+}
+
+/// A number cell (right-aligned), or `-` when absent.
+fn num_cell(v: &serde_json::Value) -> String {
+    match v.as_f64() {
+        Some(x) => format!("<td class=\"num\">{}</td>", escape(&short_number(&format!("{x}"), x))),
+        None => "<td>-</td>".to_string(),
+    }
+}
+
+/// The scenario as run: its demes (size, dormancy law), samples and the other settings.
+fn scenario_html(sc: &serde_json::Value) -> String {
+    let Some(m) = sc.as_object() else { return String::new() };
+    let mut s = String::from("<h3>Scenario</h3>\n");
+    if let Some(name) = m.get("name").and_then(|v| v.as_str()) {
+        let _ = writeln!(s, "<p>{}</p>", escape(name));
+    }
+    if let Some(demes) = m.get("demes").and_then(|v| v.as_array()).filter(|a| !a.is_empty()) {
+        s.push_str("<table><thead><tr><th>deme</th><th>size N</th><th>dormancy law</th></tr></thead><tbody>\n");
+        for d in demes {
+            let dormancy = match d["dormancy"].as_object() {
+                None => "none (no dormancy)".to_string(),
+                // The law's name, then its parameters.
+                Some(law) => {
+                    let rest: serde_json::Map<String, serde_json::Value> =
+                        law.iter().filter(|(k, _)| *k != "law").map(|(k, v)| (k.clone(), v.clone())).collect();
+                    let name = law.get("law").map(compact).unwrap_or_default();
+                    if rest.is_empty() {
+                        name
+                    } else {
+                        format!("{name}: {}", compact(&serde_json::Value::Object(rest)))
+                    }
+                }
+            };
+            let _ = writeln!(
+                s,
+                "<tr><td>{}</td><td>{}</td><td>{}</td></tr>",
+                escape(&compact(&d["name"])),
+                escape(&compact(&d["size"])),
+                escape(&dormancy)
+            );
+        }
+        s.push_str("</tbody></table>\n");
+    }
+    if let Some(samples) = m.get("samples").and_then(|v| v.as_array()).filter(|a| !a.is_empty()) {
+        s.push_str("<table><thead><tr><th>sample of deme</th><th>count</th><th>generations ago</th><th>other</th></tr></thead><tbody>\n");
+        for x in samples {
+            let other = x
+                .as_object()
+                .map(|o| {
+                    o.iter()
+                        .filter(|(k, v)| !matches!(k.as_str(), "deme" | "count" | "generations_ago") && !v.is_null())
+                        .map(|(k, v)| format!("{k}: {}", compact(v)))
+                        .collect::<Vec<_>>()
+                        .join("; ")
+                })
+                .unwrap_or_default();
+            let ago = if x["generations_ago"].is_null() { "0".to_string() } else { compact(&x["generations_ago"]) };
+            let _ = writeln!(
+                s,
+                "<tr><td>{}</td><td class=\"num\">{}</td><td class=\"num\">{}</td><td>{}</td></tr>",
+                escape(&compact(&x["deme"])),
+                escape(&compact(&x["count"])),
+                escape(&ago),
+                escape(&other)
+            );
+        }
+        s.push_str("</tbody></table>\n");
+    }
+    let rest: Vec<(&String, &serde_json::Value)> = m
+        .iter()
+        // Seed and replicates are settings of the run (shown there once).
+        .filter(|(k, v)| !matches!(k.as_str(), "name" | "demes" | "samples" | "seed" | "replicates") && !v.is_null())
+        .filter(|(_, v)| !v.as_array().is_some_and(|a| a.is_empty()))
+        .collect();
+    if !rest.is_empty() {
+        s.push_str("<table class=\"kv\"><tbody>\n");
+        for (k, v) in rest {
+            let _ = writeln!(s, "<tr><th>{}</th><td>{}</td></tr>", escape(k), escape(&compact(v)));
+        }
+        s.push_str("</tbody></table>\n");
+    }
+    s
+}
+
+/// The summary of every column of `replicates.tsv`: mean, its 95% interval, sd, quantiles.
+/// `order`: the columns in the order of `replicates.tsv` (JSON objects are read sorted by key).
+fn summary_html(columns: &serde_json::Value, replicates: Option<u64>, order: &[String]) -> String {
+    let Some(cols) = columns.as_object().filter(|c| !c.is_empty()) else { return String::new() };
+    let mut cols: Vec<(&String, &serde_json::Value)> = cols.iter().collect();
+    cols.sort_by_key(|(k, _)| order.iter().position(|o| o == *k).unwrap_or(usize::MAX));
+    let mut s = String::from("<h3 id=\"summary\">Summary over replicates</h3>\n");
+    if let Some(r) = replicates {
+        let _ = writeln!(
+            s,
+            "<p>Per column of <code>replicates.tsv</code>, over {r} replicates: the mean with the 95% interval of the mean (mean &plusmn; 1.96 standard errors), the standard deviation and the central 95% of the replicates.</p>"
+        );
+    }
+    s.push_str("<div class=\"wide\"><table class=\"summary\"><thead><tr><th>column</th><th>mean</th><th>95% interval of the mean</th><th>sd</th><th>2.5%</th><th>median</th><th>97.5%</th><th>min</th><th>max</th><th>count</th><th>missing</th></tr></thead><tbody>\n");
+    for (name, c) in cols {
+        let interval = match (c["mean"].as_f64(), c["se"].as_f64()) {
+            (Some(m), Some(se)) => {
+                let (lo, hi) = (m - 1.96 * se, m + 1.96 * se);
+                format!("[{}, {}]", short_number(&format!("{lo}"), lo), short_number(&format!("{hi}"), hi))
+            }
+            _ => "-".to_string(),
+        };
+        let q = &c["quantiles"];
+        let _ = writeln!(
+            s,
+            "<tr><td><code>{}</code></td>{}<td class=\"num\">{}</td>{}{}{}{}{}{}{}{}</tr>",
+            escape(name),
+            num_cell(&c["mean"]),
+            escape(&interval),
+            num_cell(&c["sd"]),
+            num_cell(&q["2.5%"]),
+            num_cell(&q["50%"]),
+            num_cell(&q["97.5%"]),
+            num_cell(&c["min"]),
+            num_cell(&c["max"]),
+            num_cell(&c["count"]),
+            num_cell(&c["missing"]),
+        );
+    }
+    s.push_str("</tbody></table></div>\n");
+    s
+}
+
+/// Simulated means against what theory predicts, with the kind of each prediction and the verdict.
+fn comparison_html(cmp: &serde_json::Value) -> String {
+    let Some(rows) = cmp.as_array().filter(|r| !r.is_empty()) else {
+        return "<h3>Simulated against predicted</h3>\n<p>No prediction applies to this scenario (see the notes of the run).</p>\n".into();
+    };
+    let mut s = String::from(
+        "<h3 id=\"comparison\">Simulated against predicted</h3>\n<div class=\"wide\"><table><thead><tr><th>quantity</th><th>simulated mean</th><th>95% interval</th><th>predicted</th><th>kind</th><th>verdict</th><th>source</th></tr></thead><tbody>\n",
+    );
+    for r in rows {
+        let interval = match r["interval"].as_array() {
+            Some(a) if a.len() == 2 => compact(&r["interval"]),
+            _ => "-".to_string(),
+        };
+        let _ = writeln!(
+            s,
+            "<tr><td><code>{}</code></td>{}<td class=\"num\">{}</td>{}<td>{}</td><td>{}</td><td>{}</td></tr>",
+            escape(&compact(&r["quantity"])),
+            num_cell(&r["simulated"]),
+            escape(&interval),
+            num_cell(&r["predicted"]),
+            escape(&compact(&r["kind"])),
+            escape(&compact(&r["verdict"])),
+            escape(&compact(&r["source"])),
+        );
+    }
+    s.push_str("</tbody></table></div>\n");
+    s
+}
+
+/// design's conclusion: per statistic the cheapest design that reaches the target power, or
+/// that none does (then the design with the highest power).
+fn conclusion_html(j: &serde_json::Value) -> String {
+    let Some(each) = j["cheapest_reaching_target"].as_array().filter(|a| !a.is_empty()) else { return String::new() };
+    let target = j["target"].as_f64().map_or("the target".to_string(), |t| short_number(&format!("{t}"), t));
+    let level =
+        j["level"].as_f64().map_or(String::new(), |l| format!(" at level {}", short_number(&format!("{l}"), l)));
+    let rows = j["rows"].as_array().cloned().unwrap_or_default();
+    let mut s = format!(
+        "<h3 id=\"conclusion\">Conclusion</h3>\n<p>The cheapest design that reaches power {target}{level}, per statistic:</p>\n<ul class=\"conclusion\">\n"
+    );
+    for c in each {
+        let stat = compact(&c["statistic"]);
+        let line = match c["design"].as_str() {
+            Some(design) => format!("{stat}: {design} (cost {}, power {})", compact(&c["cost"]), sig3(&c["power"])),
+            None => {
+                let best = rows
+                    .iter()
+                    .filter(|r| r["statistic"] == c["statistic"])
+                    .max_by(|a, b| a["power"].as_f64().unwrap_or(0.0).total_cmp(&b["power"].as_f64().unwrap_or(0.0)));
+                match best {
+                    Some(b) => format!(
+                        "{stat}: no design reaches power {target}; the highest is {} with {} (95% [{}, {}]), cost {}",
+                        compact(&b["design"]),
+                        sig3(&b["power"]),
+                        sig3(&b["low_95"]),
+                        sig3(&b["high_95"]),
+                        compact(&b["cost"])
+                    ),
+                    None => format!("{stat}: no design reaches power {target}"),
+                }
+            }
+        };
+        let _ = writeln!(s, "<li>{}</li>", escape(&line));
+    }
+    s.push_str("</ul>\n");
+    s
+}
+
+/// The `name:` of a hypothesis or scenario file, when it can be read (`None` otherwise).
+fn file_name_field(path: &str) -> Option<String> {
+    #[derive(serde::Deserialize)]
+    struct Named {
+        name: Option<String>,
+    }
+    let text = fs::read_to_string(path).ok()?;
+    let v: serde_json::Value = serde_saphyr::from_str(&text).ok()?;
+    serde_json::from_value::<Named>(serde_json::json!({ "name": v.get("name") })).ok()?.name
+}
+
+/// How many runs each engine took and why: `{requested, runs: {engine: n}, reasons: {engine: why}}`.
+fn tally_text(e: &serde_json::Value) -> String {
+    let runs = e["runs"].as_object();
+    let total: u64 = runs.into_iter().flatten().filter_map(|(_, n)| n.as_u64()).sum();
+    let parts: Vec<String> = runs
+        .into_iter()
+        .flatten()
+        .map(|(engine, n)| {
+            let why = e["reasons"][engine].as_str().map_or(String::new(), |r| format!(" ({r})"));
+            format!("{engine} for {} of {total} runs{why}", compact(n))
+        })
+        .collect();
+    let requested = e["requested"].as_str().map_or(String::new(), |r| format!("--engine {r}: "));
+    format!("{requested}{}", parts.join("; "))
+}
+
+/// The Engine section: the engine and why, with compare's tally per hypothesis and
+/// design's per design (null and alternative).
+fn engine_html(j: Option<&serde_json::Value>, fallback: &str) -> String {
+    let mut s = String::new();
+    let Some(j) = j else {
+        return format!("<p>{}</p>\n", escape(if fallback.is_empty() { "Not recorded." } else { fallback }));
+    };
+    if let Some(hyps) = j["hypotheses"].as_array().filter(|h| h.iter().any(|h| h.get("engine").is_some())) {
+        s.push_str("<table class=\"engines\"><thead><tr><th>hypothesis</th><th>file</th><th>engine runs (and why)</th></tr></thead><tbody>\n");
+        for h in hyps {
+            let label = compact(&h["name"]);
+            let file = h["file"].as_str().unwrap_or_default();
+            let name = match file_name_field(file) {
+                Some(n) if n != label => format!("{label}: {n}"),
+                _ => label,
+            };
+            let _ = writeln!(
+                s,
+                "<tr><td>{}</td><td><code>{}</code></td><td>{}</td></tr>",
+                escape(&name),
+                escape(file),
+                escape(&tally_text(&h["engine"]))
+            );
+        }
+        s.push_str("</tbody></table>\n");
+    }
+    if let Some(designs) = j["engines"].as_array().filter(|d| !d.is_empty()) {
+        let named = |key: &str| {
+            let file = j[key].as_str().unwrap_or_default();
+            match file_name_field(file) {
+                Some(n) => format!("{key}: {n} (<code>{}</code>)", escape(file)),
+                None => format!("{key}: <code>{}</code>", escape(file)),
+            }
+        };
+        let _ = writeln!(s, "<p>Hypotheses: {}; {}.</p>", named("null"), named("alternative"));
+        s.push_str("<table class=\"engines\"><thead><tr><th>design</th><th>null datasets</th><th>alternative datasets</th></tr></thead><tbody>\n");
+        for d in designs {
+            let _ = writeln!(
+                s,
+                "<tr><td>{}</td><td>{}</td><td>{}</td></tr>",
+                escape(&compact(&d["design"])),
+                escape(&tally_text(&d["null"])),
+                escape(&tally_text(&d["alternative"]))
+            );
+        }
+        s.push_str("</tbody></table>\n");
+    }
+    if s.is_empty() {
+        let engine = engine_text(j).unwrap_or_else(|| fallback.to_string());
+        s = format!("<p>{}</p>\n", escape(if engine.is_empty() { "Not recorded." } else { &engine }));
+    } else {
+        s = format!("<p>{}</p>\n{s}", escape(fallback));
+    }
+    s
+}
+
+/// Why simulate's SFS figure has no predicted line, when it has none: the prediction's note
+/// on the SFS, else that no prediction of the SFS applies.
+fn no_sfs_prediction(j: &serde_json::Value) -> Option<String> {
+    let predicted = j["comparison"]
+        .as_array()
+        .into_iter()
+        .flatten()
+        .any(|r| r["quantity"].as_str().is_some_and(|q| q.starts_with("xi_")) && r["predicted"].is_number());
+    if predicted {
+        return None;
+    }
+    let note = j["prediction"]["notes"]
+        .as_array()
+        .into_iter()
+        .flatten()
+        .filter_map(|n| n.as_str())
+        .find(|n| n.contains("SFS"))
+        .map(String::from);
+    Some(format!(
+        "No predicted SFS is drawn: {}",
+        note.unwrap_or_else(|| "no prediction of the SFS applies to this scenario".to_string())
+    ))
+}
 
 /// The arguments that name existing files (not the output directory): path, size, CRC-32.
 fn input_files(args: &[String], out: &Path) -> Vec<(String, u64, String)> {
@@ -294,50 +651,147 @@ fn shell_words(words: &[String]) -> String {
     words.iter().map(quote).collect::<Vec<_>>().join(" ")
 }
 
-/// Top-level scalars of the run's JSON, and those of its `settings` and `provenance` objects.
+/// The settings of a run, readable: from the run record each flag once by its name
+/// (`--replicates`), the seed(s), the versions on one line, then the other top-level values
+/// of the JSON that repeat neither a flag nor an input file (lists of numbers paired with
+/// the statistics they belong to).
 fn settings_rows(j: &serde_json::Value) -> Vec<(String, String)> {
     let mut rows = Vec::new();
     let Some(top) = j.as_object() else { return rows };
-    for (k, v) in top.iter().filter(|(k, _)| !matches!(k.as_str(), "notes" | "warnings")) {
-        match v {
-            // The run record: its seed(s) and settings (its inputs have their own table).
-            serde_json::Value::Object(m) if k == "run" => {
-                let seed = match m.get("seed") {
-                    Some(serde_json::Value::Array(each)) => Some(
-                        each.iter()
-                            .map(|e| format!("{} = {}", scalar(&e["name"]).unwrap_or_default(), e["seed"]))
-                            .collect::<Vec<_>>()
-                            .join(", "),
-                    ),
-                    Some(s) => scalar(s),
-                    None => None,
-                };
-                rows.extend(seed.map(|s| ("run.seed".to_string(), s)));
-                for (k2, v2) in m.get("settings").and_then(|s| s.as_object()).into_iter().flatten() {
-                    let text = scalar(v2)
-                        .or_else(|| v2.as_array().map(|a| a.iter().filter_map(scalar).collect::<Vec<_>>().join(", ")));
-                    rows.extend(text.map(|t| (format!("run.settings.{k2}"), t)));
-                }
+    let run = top.get("run").and_then(|r| r.as_object());
+    let settings = run.and_then(|r| r.get("settings")).and_then(|s| s.as_object());
+    let inputs: Vec<String> = run
+        .and_then(|r| r.get("inputs"))
+        .and_then(|i| i.as_array())
+        .map(|a| a.iter().filter_map(|i| i["path"].as_str().map(String::from)).collect())
+        .unwrap_or_default();
+    let command = run.and_then(|r| r.get("command")).and_then(|c| c.as_str()).unwrap_or_default();
+    if let Some(seed) = run.and_then(|r| r.get("seed")).or_else(|| top.get("seed")) {
+        rows.push(("seed".to_string(), seed_text(seed)));
+    }
+    for (flag, v) in settings.into_iter().flatten() {
+        let text = if command == "compare" && flag == "adjust" {
+            adjust_text(j, v)
+        } else {
+            match v {
+                serde_json::Value::Null => "not given (default)".to_string(),
+                serde_json::Value::Bool(true) => "on".to_string(),
+                serde_json::Value::Bool(false) => "off".to_string(),
+                v => compact(v),
             }
-            serde_json::Value::Object(m) if matches!(k.as_str(), "settings" | "provenance" | "costs") => {
-                for (k2, v2) in m {
-                    if let Some(s) = scalar(v2) {
-                        rows.push((format!("{k}.{k2}"), s));
-                    }
-                }
+        };
+        let label = if command == "compare" && flag == "adjust" {
+            "--adjust (model choice)".to_string()
+        } else {
+            format!("--{}", flag.replace('_', "-"))
+        };
+        rows.push((label, text));
+    }
+    // Top-level values that only repeat a flag under another name.
+    let alias = |k: &str| match k {
+        "null_replicates" => Some("replicates"),
+        "simulations_per_hypothesis" => Some("simulations"),
+        _ => None,
+    };
+    let statistics: Vec<String> = top
+        .get("statistics")
+        .and_then(|s| s.as_array())
+        .map(|a| a.iter().filter_map(|x| x.as_str().map(String::from)).collect())
+        .unwrap_or_default();
+    for (k, v) in top {
+        if matches!(k.as_str(), "run" | "seed" | "seeds" | "provenance" | "notes" | "warnings" | "engine" | "engines")
+            || settings.is_some_and(|st| st.contains_key(k) || alias(k).is_some_and(|a| st.contains_key(a)))
+        {
+            continue;
+        }
+        let label = match k.as_str() {
+            "forests" => "forests (replicates that ended without an MRCA)".to_string(),
+            k => k.replace('_', " "),
+        };
+        match v {
+            serde_json::Value::String(s) if inputs.contains(s) => {}
+            serde_json::Value::Object(m) if m.values().all(|x| scalar(x).is_some()) && !m.is_empty() => {
+                let items: Vec<String> =
+                    m.iter().map(|(k2, v2)| format!("{} {}", k2.replace('_', " "), compact(v2))).collect();
+                rows.push((label, items.join(", ")));
+            }
+            serde_json::Value::Array(a) if !a.is_empty() && a.iter().all(|x| x.is_number()) => {
+                // Unnamed numbers are one per statistic where the lengths agree.
+                let items: Vec<String> = if a.len() == statistics.len() && k != "statistics" {
+                    statistics.iter().zip(a).map(|(n, x)| format!("{n} {}", compact(x))).collect()
+                } else {
+                    a.iter().map(compact).collect()
+                };
+                rows.push((label, items.join(", ")));
+            }
+            serde_json::Value::Array(a) if !a.is_empty() && a.len() <= 40 && a.iter().all(|x| x.is_string()) => {
+                rows.push((label, a.iter().filter_map(scalar).collect::<Vec<_>>().join(", ")));
             }
             v => {
-                if let Some(s) = scalar(v) {
-                    rows.push((k.clone(), s));
-                } else if let Some(a) = v.as_array().filter(|a| a.len() <= 12 && a.iter().all(|x| scalar(x).is_some()))
-                {
-                    let items: Vec<String> = a.iter().filter_map(scalar).collect();
-                    rows.push((k.clone(), items.join(", ")));
+                if let Some(s) = scalar(v).filter(|_| !v.is_null()) {
+                    rows.push((label, if v.is_number() { compact(v) } else { s }));
                 }
             }
         }
     }
+    if let Some(p) = top.get("provenance").and_then(|p| p.as_object()) {
+        let versions: Vec<String> = p
+            .iter()
+            .filter(|(k, _)| *k == "seedline")
+            .chain(p.iter().filter(|(k, _)| !matches!(k.as_str(), "generator" | "seedline")))
+            .filter_map(|(k, v)| scalar(v).map(|v| format!("{k} {v}")))
+            .collect();
+        rows.push(("versions".to_string(), versions.join(", ")));
+        if let Some(g) = p.get("generator").and_then(scalar) {
+            rows.push(("random streams".to_string(), g));
+        }
+    } else if let Some(v) = run.and_then(|r| r.get("seedline")).and_then(scalar) {
+        rows.push(("versions".to_string(), format!("seedline {v}")));
+    }
     rows
+}
+
+/// The seed(s) of a run: one number, none, or one per named part, each with the stream key
+/// derived from it where the record gives one (a number or a decimal string).
+fn seed_text(seed: &serde_json::Value) -> String {
+    match seed {
+        serde_json::Value::Null => "none (nothing drawn at random)".to_string(),
+        serde_json::Value::Array(each) => each
+            .iter()
+            .map(|e| {
+                let name = scalar(&e["name"]).unwrap_or_default();
+                let seed = scalar(&e["seed"]).unwrap_or_default();
+                match scalar(&e["stream"]).filter(|_| !e["stream"].is_null()) {
+                    Some(stream) => format!("{name}: {seed} (stream key {stream})"),
+                    None => format!("{name}: {seed}"),
+                }
+            })
+            .collect::<Vec<_>>()
+            .join("; "),
+        v => scalar(v).unwrap_or_default(),
+    }
+}
+
+/// compare's `--adjust` concerns the model probabilities only: parameters are adjusted by
+/// local-linear regression whatever it says.
+fn adjust_text(j: &serde_json::Value, v: &serde_json::Value) -> String {
+    let choice = match v.as_str() {
+        Some("none") => "none (rejection shares)".to_string(),
+        _ => compact(v),
+    };
+    let flags: Vec<bool> = j["hypotheses"]
+        .as_array()
+        .into_iter()
+        .flatten()
+        .flat_map(|h| h["estimation"]["parameters"].as_array().into_iter().flatten())
+        .filter_map(|p| p["regression"].as_bool())
+        .collect();
+    let parameters = if flags.iter().all(|r| *r) {
+        "local-linear regression adjustment"
+    } else {
+        "local-linear regression adjustment where it could be fitted (the others: the weighted rejection sample; see posterior.tsv)"
+    };
+    format!("model-choice adjustment: {choice}; parameters: {parameters}")
 }
 
 fn scalar(v: &serde_json::Value) -> Option<String> {
@@ -365,10 +819,11 @@ fn engine_text(j: &serde_json::Value) -> Option<String> {
 
 fn notes_of(j: &serde_json::Value) -> Vec<String> {
     let mut out = Vec::new();
-    for key in ["notes", "warnings"] {
-        for n in j.get(key).and_then(|v| v.as_array()).into_iter().flatten() {
+    // simulate keeps the notes of its prediction inside `prediction`.
+    for (key, list) in [("notes", &j["notes"]), ("notes", &j["prediction"]["notes"]), ("warnings", &j["warnings"])] {
+        for n in list.as_array().into_iter().flatten() {
             let text = n.as_str().map(String::from).or_else(|| n.get("message").and_then(scalar));
-            if let Some(t) = text {
+            if let Some(t) = text.filter(|t| !out.iter().any(|o: &String| o == t)) {
                 out.push(if key == "warnings" { format!("warning: {t}") } else { t });
             }
         }
@@ -456,6 +911,34 @@ mod tests {
     }
 
     #[test]
+    fn settings_come_from_the_run_record_once_each_with_flag_names() {
+        // Seeds as compare and design write them: the file's seed and the derived stream key,
+        // a decimal string (too large for every JSON reader's numbers) or a number.
+        let j: serde_json::Value = serde_json::from_str(
+            r#"{"run": {"seedline": "9.9.9", "command": "compare", "inputs": [{"role": "hypothesis", "path": "h.yaml", "bytes": 3, "crc32": "352441c2"}],
+                "seed": [{"name": "h-a", "seed": 31, "stream": "15517599431202433770"}, {"name": "h-b", "seed": 7, "stream": 12}],
+                "settings": {"simulations": 200, "adjust": "none", "statistics": null, "vcf": true}},
+               "simulations_per_hypothesis": 200, "hypothesis": "h.yaml", "statistics": ["pi", "tajima_d"],
+               "observed_values": [1.5, -0.25], "provenance": {"rand": "0.10.4", "seedline": "9.9.9", "generator": "ChaCha8"}}"#,
+        )
+        .unwrap();
+        let rows = settings_rows(&j);
+        let get = |k: &str| rows.iter().filter(|r| r.0 == k).map(|r| r.1.clone()).collect::<Vec<_>>();
+        assert_eq!(get("seed"), ["h-a: 31 (stream key 15517599431202433770); h-b: 7 (stream key 12)"]);
+        assert_eq!(get("--simulations"), ["200"]);
+        assert_eq!(get("--statistics"), ["not given (default)"]);
+        assert_eq!(get("--vcf"), ["on"]);
+        assert_eq!(
+            get("--adjust (model choice)"),
+            ["model-choice adjustment: none (rejection shares); parameters: local-linear regression adjustment"]
+        );
+        assert_eq!(get("observed values"), ["pi 1.5, tajima_d -0.25"]);
+        assert_eq!(get("versions"), ["seedline 9.9.9, rand 0.10.4"]);
+        assert!(rows.iter().all(|r| !r.0.starts_with("run.") && !r.0.starts_with("provenance")), "{rows:?}");
+        assert!(get("simulations per hypothesis").is_empty() && get("hypothesis").is_empty(), "{rows:?}");
+    }
+
+    #[test]
     fn report_holds_command_settings_tables_figures_and_cautions() {
         let dir = std::env::temp_dir().join(format!("seedline-html-{}", std::process::id()));
         let _ = fs::remove_dir_all(&dir);
@@ -477,7 +960,7 @@ mod tests {
         assert!(page.contains("<pre>seedline test &#39;obs dir/observed.json&#39; "));
         // CRC-32 of "abc" (the check value of the IEEE polynomial, RFC 1952 / zlib).
         assert!(page.contains("<td class=\"num\">3</td><td><code>352441c2</code></td>"), "{page}");
-        assert!(page.contains("<th>settings.replicates</th><td>100</td>"));
+        assert!(page.contains("<th>settings</th><td>replicates 100</td>"), "{page}");
         assert!(page.contains("<th>seed</th><td>5</td>"));
         assert!(page.contains("<td class=\"num\">0.04</td>"));
         assert!(page.contains("output directory <code>runs/test</code>"));
