@@ -110,6 +110,18 @@ impl Manifest {
         d
     }
 
+    /// The chunk layout of the run (replicates, shard, chunk size), for reading its files.
+    fn layout(&self) -> NullConfig {
+        NullConfig {
+            replicates: self.replicates,
+            shard: (self.shard, self.shards),
+            chunk: self.chunk,
+            count: Count::Poisson,
+            max_new_chunks: None,
+            engine: EngineChoice::Auto,
+        }
+    }
+
     /// Sample size of the null's scenario (number of `xi_` columns + 1).
     pub fn sample_size(&self) -> usize {
         self.columns.iter().filter(|c| c.starts_with("xi_")).count() + 1
@@ -709,14 +721,7 @@ fn manifest_of(dir: &Path) -> Result<Manifest, NullError> {
 /// given twice, a cell that is not a finite number.
 pub fn load(dir: &Path) -> Result<NullTable> {
     let manifest = manifest_of(dir)?;
-    let cfg = NullConfig {
-        replicates: manifest.replicates,
-        shard: (manifest.shard, manifest.shards),
-        chunk: manifest.chunk,
-        count: Count::Poisson,
-        max_new_chunks: None,
-        engine: EngineChoice::Auto,
-    };
+    let cfg = manifest.layout();
     let chunks_err = |message: String| NullError::Chunks { dir: dir.to_path_buf(), message };
     let mut rows = Vec::new();
     let merged = dir.join("null.tsv");
@@ -1633,14 +1638,7 @@ fn run_status(dir: &Path) -> Result<RunStatus> {
             unfinished_files: false,
         });
     }
-    let cfg = NullConfig {
-        replicates: manifest.replicates,
-        shard: (manifest.shard, manifest.shards),
-        chunk: manifest.chunk,
-        count: Count::Poisson,
-        max_new_chunks: None,
-        engine: EngineChoice::Auto,
-    };
+    let cfg = manifest.layout();
     let total = cfg.total_chunks();
     let ledger = read_ledger(dir);
     let n_loci = null_layout(&manifest).len() as u64;

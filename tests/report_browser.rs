@@ -377,6 +377,18 @@ fn every_report_states_its_results_engines_and_settings() {
         )
     );
     assert!(!cmp.contains("<th>adjust</th>") && !cmp.contains("run.settings"));
+
+    // test: the Engine section names the null and the engine that made it, from test.json.
+    let like = ["--like", "observed/observed.json"];
+    seedline(
+        &dir,
+        &[&["null", "examples/null-no-dormancy.yaml", "--replicates", "60", "--out", "null"][..], &like].concat(),
+    );
+    seedline(&dir, &["test", "observed/observed.json", "--null", "null", "--out", "test"]);
+    let t = json(&dir.join("test/test.json"));
+    let (engine, name) = (t["null"]["engine"].as_str().unwrap(), t["null"]["scenario_name"].as_str().unwrap());
+    let tp = page("test");
+    assert!(tp.contains(&format!("of &quot;{name}&quot; (in null) was made by the {engine} engine")), "test engine");
     let _ = std::fs::remove_dir_all(&dir);
 }
 

@@ -553,6 +553,20 @@ fn engine_html(j: Option<&serde_json::Value>, fallback: &str) -> String {
         }
         s.push_str("</tbody></table>\n");
     }
+    // test.json names the null it compared against, with the engine that made it.
+    if let Some(engine) = j["null"]["engine"].as_str() {
+        let name = j["null"]["scenario_name"].as_str().map_or(String::new(), |n| format!(" of \"{n}\""));
+        let reason = j["null"]["engine_reason"].as_str().unwrap_or_default();
+        let _ = writeln!(
+            s,
+            "<p>{}</p>",
+            escape(&format!(
+                "The null distribution{name} (in {}) was made by the {engine} engine: {reason}. This command only compares.",
+                compact(&j["null"]["dir"])
+            ))
+        );
+        return s;
+    }
     if s.is_empty() {
         let engine = engine_text(j).unwrap_or_else(|| fallback.to_string());
         s = format!("<p>{}</p>\n", escape(if engine.is_empty() { "Not recorded." } else { &engine }));
