@@ -670,7 +670,8 @@ fn run(cli: Cli) -> Result<()> {
         Command::Merge { dirs, out, force } => {
             let mut output = Output::begin(&out, "merge", force.force)?;
             let n = seedline::null::merge(&dirs, output.staging())?;
-            let shards: Vec<(&str, Option<&Path>)> = dirs.iter().map(|d| ("run", Some(d.as_path()))).collect();
+            let shard_files: Vec<PathBuf> = dirs.iter().flat_map(|d| seedline::null::identifying_files(d)).collect();
+            let shards: Vec<(&str, Option<&Path>)> = shard_files.iter().map(|p| ("run", Some(p.as_path()))).collect();
             output.set_run(record("merge", &shards, json!({}))?);
             output.commit()?;
             out!("merged {n} replicates into {}\n", out.join("null.tsv").display())?;
@@ -696,8 +697,11 @@ fn run(cli: Cli) -> Result<()> {
             let mut report = nl::test(&obs, &table)?;
             let mut output = Output::begin(&out, "test", force.force)?;
             // The seed is the null's: the p-values rest on its replicates.
-            let rec = record("test", &[("observed", Some(&observed)), ("null", Some(&null))], json!({}))?
-                .with_seed(Seeds::One(table.manifest.seed));
+            let null_files = nl::identifying_files(&null);
+            let files: Vec<(&str, Option<&Path>)> = std::iter::once(("observed", Some(observed.as_path())))
+                .chain(null_files.iter().map(|p| ("null", Some(p.as_path()))))
+                .collect();
+            let rec = record("test", &files, json!({}))?.with_seed(Seeds::One(table.manifest.seed));
             output.set_run(rec.clone());
             report.run = Some(rec);
             nl::write_test(&report, &table, output.staging())?;

@@ -336,6 +336,13 @@ fn chunk_index(name: &str) -> Option<u64> {
 /// The chunk manifest of a run directory.
 pub const CHUNK_MANIFEST: &str = "chunks.tsv";
 
+/// The files that identify a null run's contents for a run record: `null.json`, and the chunk
+/// manifest (it lists every chunk's CRC-32, checked whenever the run is loaded, so the chunks
+/// need not be read again) or the merged `null.tsv` and `loci.tsv`.
+pub fn identifying_files(dir: &Path) -> Vec<PathBuf> {
+    ["null.json", CHUNK_MANIFEST, "null.tsv", "loci.tsv"].iter().map(|f| dir.join(f)).filter(|p| p.is_file()).collect()
+}
+
 /// Rows and CRC-32 of each finished chunk, from the chunk manifest (a torn last line,
 /// left by a kill, is ignored: its chunk is redone).
 fn read_ledger(dir: &Path) -> BTreeMap<String, (u64, String)> {

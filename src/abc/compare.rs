@@ -591,6 +591,7 @@ pub fn write(run: &CompareRun, dir: &Path) -> Result<Vec<std::path::PathBuf>, Er
         "hypotheses": run.hypotheses.iter().enumerate().map(|(k, h)| serde_json::json!({
             "name": h.name,
             "file": h.origin,
+            "title": h.title(),
             "seed": run.seeds[k],
             "priors": h.priors,
             "accepted": a.shares[k].accepted,

@@ -327,6 +327,8 @@ pub struct DesignRun {
     pub null_file: String,
     /// Alternative hypothesis file.
     pub alternative_file: String,
+    /// The `name:` of the null and of the alternative file, if they have one.
+    pub titles: (Option<String>, Option<String>),
     /// Designs file.
     pub designs_file: String,
     /// Settings.
@@ -487,6 +489,7 @@ pub fn run(
         run: None,
         null_file: null.origin.clone(),
         alternative_file: alternative.origin.clone(),
+        titles: (null.title().map(String::from), alternative.title().map(String::from)),
         designs_file: designs.origin.clone(),
         options,
         costs: designs.costs,
@@ -520,6 +523,8 @@ pub fn write(run: &DesignRun, dir: &Path) -> Result<Vec<std::path::PathBuf>, Err
     let mut json = serde_json::json!({
         "provenance": crate::report::Provenance::current(),
         "null": run.null_file,
+        "null_title": run.titles.0,
+        "alternative_title": run.titles.1,
         "alternative": run.alternative_file,
         "designs": run.designs_file,
         "seeds": {"null": run.seeds.0, "alternative": run.seeds.1},

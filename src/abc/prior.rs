@@ -189,6 +189,11 @@ pub struct Hypothesis {
 }
 
 impl Hypothesis {
+    /// The file's own `name:` (e.g. "no dormancy"), if it has one.
+    pub fn title(&self) -> Option<&str> {
+        self.original.get("name").and_then(Value::as_str)
+    }
+
     /// Reads a hypothesis from YAML text; `origin` names the file in messages.
     pub fn from_yaml_str(text: &str, origin: &str, name: &str) -> Result<Self, Error> {
         let value: Value = serde_saphyr::from_str(text)

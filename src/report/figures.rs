@@ -177,13 +177,7 @@ pub fn sfs_band(kind: &str, observed: &[f64], null_rows: &[Vec<f64>], p_value: O
             .map_err(|e| err(&e))?
             .label("observed")
             .legend(|(x, y)| Circle::new((x + 9, y), 4, RED.filled()));
-        chart
-            .configure_series_labels()
-            .position(SeriesLabelPosition::UpperRight)
-            .background_style(WHITE.mix(0.85))
-            .border_style(BLACK)
-            .draw()
-            .map_err(|e| err(&e))?;
+        framed_legend(&mut chart, SeriesLabelPosition::UpperRight).map_err(|e| err(&e))?;
         root.present().map_err(|e| err(&e))?;
     }
     Ok(svg)
@@ -355,16 +349,18 @@ pub fn sfs_simulated(
                 .label("no predicted SFS for this sample (see the run's notes)")
                 .legend(|(x, y)| Text::new("-", (x + 6, y - 8), ("sans-serif", 14)));
         }
-        chart
-            .configure_series_labels()
-            .position(SeriesLabelPosition::UpperRight)
-            .background_style(WHITE.mix(0.85))
-            .border_style(BLACK)
-            .draw()
-            .map_err(|e| err(&e))?;
+        framed_legend(&mut chart, SeriesLabelPosition::UpperRight).map_err(|e| err(&e))?;
         root.present().map_err(|e| err(&e))?;
     }
     Ok(svg)
+}
+
+/// The series legend every figure draws: a framed, nearly opaque white box at `pos`.
+fn framed_legend<'a, DB: DrawingBackend + 'a, CT: CoordTranslate>(
+    chart: &mut ChartContext<'a, DB, CT>,
+    pos: SeriesLabelPosition,
+) -> Result<(), DrawingAreaErrorKind<DB::ErrorType>> {
+    chart.configure_series_labels().position(pos).background_style(WHITE.mix(0.85)).border_style(BLACK).draw()
 }
 
 /// Log-log chart frame shared by the families figures.
@@ -476,13 +472,7 @@ fn loglog_figure(
                 .label(label)
                 .legend(|(x, y)| PathElement::new([(x, y), (x + 18, y)], BLACK.stroke_width(2)));
         }
-        chart
-            .configure_series_labels()
-            .position(legend_at)
-            .background_style(WHITE.mix(0.85))
-            .border_style(BLACK)
-            .draw()
-            .map_err(|e| err(&e))?;
+        framed_legend(&mut chart, legend_at).map_err(|e| err(&e))?;
         root.present().map_err(|e| err(&e))?;
     }
     Ok(svg)

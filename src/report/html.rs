@@ -153,16 +153,17 @@ pub fn render_report(dir: &Path, out: &Path, command: &str, argv: &[String]) -> 
         "<section id=\"inputs\"><h2>Inputs and settings</h2>\n<p>Command line:</p><pre>{}</pre>\n",
         escape(&shell_words(&line))
     );
-    // The run record's inputs where the run wrote one, else the arguments that name files.
-    let recorded = json.as_ref().and_then(|j| j["run"]["inputs"].as_array()).map(|a| {
-        a.iter()
-            .map(|i| {
-                let path = scalar(&i["path"]).unwrap_or_default();
-                (path, i["bytes"].as_u64().unwrap_or(0), scalar(&i["crc32"]).unwrap_or_default())
-            })
-            .collect::<Vec<_>>()
-    });
-    let inputs = recorded.unwrap_or_else(|| input_files(&argv[1.min(argv.len())..], out));
+    // The files as the run record has them (every command that writes a page records its run).
+    let inputs: Vec<(String, u64, String)> = json
+        .as_ref()
+        .and_then(|j| j["run"]["inputs"].as_array())
+        .into_iter()
+        .flatten()
+        .map(|i| {
+            let path = scalar(&i["path"]).unwrap_or_default();
+            (path, i["bytes"].as_u64().unwrap_or(0), scalar(&i["crc32"]).unwrap_or_default())
+        })
+        .collect();
     if !inputs.is_empty() {
         body.push_str("<p>Input files (as read for this run):</p>\n<table><thead><tr><th>file</th><th>bytes</th><th>CRC-32</th></tr></thead><tbody>\n");
         for (path, bytes, crc) in inputs {
@@ -479,17 +480,6 @@ fn conclusion_html(j: &serde_json::Value) -> String {
     s
 }
 
-/// The `name:` of a hypothesis or scenario file, when it can be read (`None` otherwise).
-fn file_name_field(path: &str) -> Option<String> {
-    #[derive(serde::Deserialize)]
-    struct Named {
-        name: Option<String>,
-    }
-    let text = fs::read_to_string(path).ok()?;
-    let v: serde_json::Value = serde_saphyr::from_str(&text).ok()?;
-    serde_json::from_value::<Named>(serde_json::json!({ "name": v.get("name") })).ok()?.name
-}
-
 /// How many runs each engine took and why: `{requested, runs: {engine: n}, reasons: {engine: why}}`.
 fn tally_text(e: &serde_json::Value) -> String {
     let runs = e["runs"].as_object();
@@ -518,7 +508,7 @@ fn engine_html(j: Option<&serde_json::Value>, fallback: &str) -> String {
         for h in hyps {
             let label = compact(&h["name"]);
             let file = h["file"].as_str().unwrap_or_default();
-            let name = match file_name_field(file) {
+            let name = match h["title"].as_str() {
                 Some(n) if n != label => format!("{label}: {n}"),
                 _ => label,
             };
@@ -535,8 +525,8 @@ fn engine_html(j: Option<&serde_json::Value>, fallback: &str) -> String {
     if let Some(designs) = j["engines"].as_array().filter(|d| !d.is_empty()) {
         let named = |key: &str| {
             let file = j[key].as_str().unwrap_or_default();
-            match file_name_field(file) {
-                Some(n) => format!("{key}: {n} (<code>{}</code>)", escape(file)),
+            match j[format!("{key}_title")].as_str() {
+                Some(n) => format!("{key}: {} (<code>{}</code>)", escape(n), escape(file)),
                 None => format!("{key}: <code>{}</code>", escape(file)),
             }
         };
@@ -598,21 +588,6 @@ fn no_sfs_prediction(j: &serde_json::Value) -> Option<String> {
         "No predicted SFS is drawn: {}",
         note.unwrap_or_else(|| "no prediction of the SFS applies to this scenario".to_string())
     ))
-}
-
-/// The arguments that name existing files (not the output directory): path, size, CRC-32.
-fn input_files(args: &[String], out: &Path) -> Vec<(String, u64, String)> {
-    let mut seen = Vec::new();
-    for a in args {
-        let p = Path::new(a);
-        if a.starts_with('-') || p == out || !p.is_file() || seen.iter().any(|(s, _, _)| s == a) {
-            continue;
-        }
-        if let Ok((bytes, crc)) = crate::report::record::crc32_file(p) {
-            seen.push((a.clone(), bytes, crc));
-        }
-    }
-    seen
 }
 
 fn is_manifest(p: &Path) -> bool {
@@ -958,15 +933,19 @@ mod tests {
         let _ = fs::remove_dir_all(&dir);
         fs::create_dir_all(dir.join("figures")).unwrap();
         fs::write(dir.join("test.tsv"), "statistic\tp_value\npi\t0.04\n").unwrap();
-        fs::write(
-            dir.join("test.json"),
-            r#"{"seed": 5, "settings": {"replicates": 100}, "notes": ["a <note>"], "engine": {"kind": "exact", "reason": "small N"}}"#,
-        )
-        .unwrap();
         fs::write(dir.join("figures/pi.svg"), "<?xml version=\"1.0\"?>\n<svg width=\"10\" height=\"10\"></svg>")
             .unwrap();
         let input = dir.with_extension("input.yaml");
         fs::write(&input, "abc").unwrap();
+        // The input table comes from the run record, as the command writes it.
+        let run = crate::report::record::RunRecord::new("test").input("observed", &input).unwrap();
+        let run = run.with_seed(crate::report::record::Seeds::One(5));
+        let mut json: serde_json::Value = serde_json::from_str(
+            r#"{"seed": 5, "settings": {"replicates": 100}, "notes": ["a <note>"], "engine": {"kind": "exact", "reason": "small N"}}"#,
+        )
+        .unwrap();
+        json["run"] = serde_json::to_value(run).unwrap();
+        fs::write(dir.join("test.json"), json.to_string()).unwrap();
         let argv: Vec<String> =
             vec!["seedline".into(), "test".into(), "obs dir/observed.json".into(), input.display().to_string()];
         let page = render_report(&dir, Path::new("runs/test"), "test", &argv).unwrap();

@@ -111,7 +111,7 @@ impl RunRecord {
 
     /// Adds an input that is no file, e.g. the embedded demo scenario, by name and contents.
     pub fn embedded(mut self, role: &str, name: &str, contents: &[u8]) -> Self {
-        let crc32 = format!("{:08x}", zlib_rs::crc32::crc32(0, contents));
+        let crc32 = super::output::crc32_hex(contents);
         self.inputs.push(InputFile { role: role.into(), path: name.into(), bytes: contents.len() as u64, crc32 });
         self
     }
